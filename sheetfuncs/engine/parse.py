@@ -40,7 +40,8 @@ _SHARED_FUNCTIONS = {
 FUNCTIONS = dict(_SHARED_FUNCTIONS)
 #: extra functions of time-domain signals: unit step and unit impulse
 TIME_FUNCTIONS = dict(_SHARED_FUNCTIONS, u=sp.Heaviside, step=sp.Heaviside,
-                      heaviside=sp.Heaviside, delta=sp.DiracDelta, dirac=sp.DiracDelta)
+                      heaviside=sp.Heaviside, delta=sp.DiracDelta, dirac=sp.DiracDelta,
+                      ramp=lambda x: x * sp.Heaviside(x))
 CONSTANTS = {"pi": sp.pi, "e": sp.E}
 
 _TOKEN = re.compile(r"""

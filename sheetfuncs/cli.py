@@ -1,0 +1,171 @@
+"""The ``sheetfuncs`` command: argument parsing, engine calls and printing only.
+
+Every command takes ``--json``.  Errors end as one ``error: ...`` line on
+stderr (and ``{"error": ...}`` on stdout with ``--json``), exit status 2.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+from . import __version__
+from .errors import SheetfuncsError
+
+EXIT_USAGE = 2
+
+
+class _UsageError(SheetfuncsError):
+    pass
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):          # one line, no usage block
+        raise _UsageError(message)
+
+
+def _params(items) -> dict:
+    out = {}
+    for item in items or []:
+        if "=" not in item:
+            raise _UsageError(f"--param needs NAME=VALUE, got '{item}'")
+        name, value = item.split("=", 1)
+        out[name.strip()] = value.strip()
+    return out
+
+
+def _floats(text: str, what: str) -> list[float]:
+    try:
+        return [float(x) for x in text.split(",") if x.strip()]
+    except ValueError as exc:
+        raise _UsageError(f"{what} must be numbers separated by commas, got '{text}'") from exc
+
+
+def _items(text: str) -> list[str]:
+    return [x.strip() for x in text.split(",")] if text.strip() else []
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = _Parser(prog="sheetfuncs", description="s-domain toolkit: inverse Laplace transforms, "
+                "partial fractions, poles, sampled responses and response figures.")
+    p.add_argument("--version", action="version", version=f"sheetfuncs {__version__}")
+    sub = p.add_subparsers(dest="command", parser_class=_Parser, metavar="COMMAND")
+
+    def common(sp_, expr=True):
+        if expr:
+            sp_.add_argument("expr", metavar="EXPR", help="F(s), e.g. '(s+3)/(s^2+2s+5)'")
+        sp_.add_argument("--param", action="append", metavar="NAME=VALUE", help="parameter value")
+        sp_.add_argument("--json", action="store_true", help="print JSON")
+        sp_.add_argument("--digits", type=int, default=None, help="significant digits of numbers")
+        sp_.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+
+    c = sub.add_parser("invert", help="inverse transform f(t) with its partial fractions")
+    common(c)
+    c.add_argument("--check", action="store_true", help="compare with a numerical inversion")
+    c.add_argument("--excel", metavar="CELL", help="also print a spreadsheet formula in CELL")
+    c.add_argument("--latex", action="store_true", help="also print LaTeX")
+
+    c = sub.add_parser("sample", help="sampled response y(t)")
+    common(c)
+    c.add_argument("--times", help="comma-separated times")
+    c.add_argument("--from", dest="start", type=float)
+    c.add_argument("--to", dest="stop", type=float)
+    c.add_argument("--n", type=int)
+    c.add_argument("--input", default="impulse", help="impulse, step, ramp or U(s)")
+
+    c = sub.add_parser("figures", help="poles, stability, gains and step-response figures")
+    common(c)
+    c.add_argument("--input", default="step", help="impulse, step, ramp or U(s)")
+    c.add_argument("--band", type=float, default=0.02, help="settling band (fraction, default 0.02)")
+    c.add_argument("--rise", default="0.1,0.9", help="rise-time levels LOW,HIGH (default 0.1,0.9)")
+
+    c = sub.add_parser("ode", help="solve a linear ODE with initial conditions by the Laplace route")
+    common(c, expr=False)
+    c.add_argument("--coeffs", required=True, help="a_n,...,a_1,a_0 (highest derivative first)")
+    c.add_argument("--initial", default="", help="y(0),y'(0),...")
+    c.add_argument("--input", default=None, help="U(s), the transformed input")
+    c.add_argument("--input-t", default=None, help="u(t), the input as a time signal")
+
+    c = sub.add_parser("transform", help="forward transform of a time signal")
+    c.add_argument("signal", metavar="SIGNAL", help="e.g. 'exp(-2t) sin(3t)', 'u(t) - u(t-1)'")
+    common(c, expr=False)
+    return p
+
+
+def main(argv=None) -> int:
+    argv = list(sys.argv[1:] if argv is None else argv)
+    want_json = "--json" in argv
+    debug = "--debug" in argv
+    try:
+        args = build_parser().parse_args(argv)
+        if not args.command:
+            raise _UsageError("give a command: invert, sample, figures, ode or transform "
+                              "(sheetfuncs --help lists them)")
+        out = _run(args)
+    except SheetfuncsError as exc:
+        return _fail(str(exc), want_json)
+    except KeyboardInterrupt:
+        return _fail("interrupted", want_json)
+    except Exception as exc:  # noqa: BLE001 - last line of defence: one line, no traceback
+        if debug:
+            raise
+        return _fail(f"internal error ({type(exc).__name__}: {exc}); please report it", want_json)
+    if want_json:
+        print(json.dumps(out, allow_nan=False))
+    else:
+        print(out)
+    return 0
+
+
+def _fail(message: str, want_json: bool) -> int:
+    print(f"error: {message}", file=sys.stderr)
+    if want_json:
+        print(json.dumps({"error": message}))
+    return EXIT_USAGE
+
+
+def _run(args):
+    from . import api
+    from . import report
+    params = _params(args.param)
+    if args.digits is not None and not 1 <= args.digits <= 30:
+        raise _UsageError("--digits must be between 1 and 30")
+    if args.command == "invert":
+        res = api.invert(args.expr, params)
+        d = res.to_dict(digits=args.digits)
+        if args.check and res.f_t is not None:
+            d["check"] = api.self_check(res).to_dict()
+        if args.excel:
+            d["excel"] = api.excel_formula(res, args.excel, digits=args.digits or 15)
+        if args.latex:
+            d["latex"] = api.latex(res, digits=args.digits)
+        return d if args.json else report.inversion(res, d, digits=args.digits or 6)
+    if args.command == "sample":
+        times = _floats(args.times, "--times") if args.times else None
+        if times is None and None in (args.start, args.stop, args.n):
+            raise _UsageError("sample needs --times T1,T2,... or --from A --to B --n N")
+        res = api.sample(args.expr, times, start=args.start, stop=args.stop, n=args.n,
+                         input=args.input, params=params)
+        d = res.to_dict()
+        return {"t": d["t"], "y": d["y"], "impulses": d["impulses"], "method": d["method"]} \
+            if args.json else report.samples(res, digits=args.digits or 6)
+    if args.command == "figures":
+        rise = _floats(args.rise, "--rise")
+        if len(rise) != 2:
+            raise _UsageError("--rise takes two levels, e.g. 0.1,0.9")
+        res = api.figures(args.expr, params, input=args.input, settle=args.band, rise=tuple(rise))
+        return res.to_dict() if args.json else report.figures(res, digits=args.digits or 6)
+    if args.command == "ode":
+        res = api.solve_ode(_items(args.coeffs), _items(args.initial), args.input, params,
+                            input_t=args.input_t)
+        d = res.to_dict(digits=args.digits)
+        return d if args.json else report.ode(res, digits=args.digits or 6)
+    if args.command == "transform":
+        F = api.transform(args.signal, params)
+        d = {"F_s": api.s_text(F)}
+        return d if args.json else f"F(s) = {d['F_s']}"
+    raise _UsageError(f"unknown command {args.command}")
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
