@@ -47,7 +47,19 @@ def invert(expr, params: Mapping | None = None, *, numeric: bool = True,
         return invert_expr(F, numeric=numeric)
 
 
+def check_expr(F: sp.Expr) -> None:
+    """Refuse what no real system can be: complex coefficients, infinities."""
+    if F.has(sp.zoo, sp.oo, -sp.oo, sp.nan):
+        raise UnsupportedExpressionError("the expression is infinite or undefined (e.g. log(0), 1/0)")
+    if F.has(sp.I):
+        raise UnsupportedExpressionError("F(s) has a complex coefficient (e.g. sqrt(-1))",
+                                         "a real system has real coefficients")
+    if not isinstance(F, sp.Expr):
+        raise UnsupportedExpressionError("not an expression in s")
+
+
 def invert_expr(F: sp.Expr, *, numeric: bool = True) -> InversionResult:
+    check_expr(F)
     if not F.has(S):
         return InversionResult(F, F * sp.DiracDelta(T), "table", (), (F,) if F != 0 else (), ())
     pieces = split_delays(F)

@@ -33,7 +33,6 @@ class OdeSolution:
     forced: InversionResult
 
     def to_dict(self, digits=None) -> dict:
-        from ..printing import to_sympy_text
         return {"Y_s": sp.sstr(self.Y_s), "f_t": _text(self.y, digits),
                 "free_s": sp.sstr(self.free_s), "forced_s": sp.sstr(self.forced_s),
                 "free_t": _text(self.free, digits), "forced_t": _text(self.forced, digits),
@@ -70,6 +69,9 @@ def ode_transform(coeffs: Sequence, initial: Sequence = (), input=None,
     while len(a) > 1 and a[0] == 0:
         a = a[1:]
     n = len(a) - 1
+    if n == 0:
+        raise ParameterError("give at least two coefficients (a_1, a_0): an equation of order "
+                             "zero has no derivatives")
     if n > MAX_ORDER:
         raise ParameterError(f"order {n} is above the limit of {MAX_ORDER}")
     if a[0] == 0:

@@ -275,10 +275,14 @@ def _sort_key(pair):
 # numeric factors ------------------------------------------------------------
 def _require_numeric(f):
     syms = sorted(str(x) for x in f.as_expr().free_symbols if x != S)
+    if syms and f.degree() == 2:
+        raise ParameterError(
+            f"whether the poles of {f.as_expr()} are real, repeated or complex depends on the "
+            f"parameters; give values for {', '.join(syms)}", syms[0])
     if syms:
         raise ParameterError(
-            "the poles depend on the parameters in a way that has no closed form "
-            f"(factor {f.as_expr()}); give values for {', '.join(syms)}", syms[0])
+            f"the poles of {f.as_expr()} have no closed form in the parameters; "
+            f"give values for {', '.join(syms)}", syms[0])
 
 
 def polish_roots(coeffs_mp, dps=NUMERIC_DPS):

@@ -60,7 +60,7 @@ def split_delays(F: sp.Expr) -> list[Piece] | None:
         delay = sp.nsimplify(-c1) if c1.is_Float else -c1
         if delay.is_negative:
             raise UnsupportedExpressionError(
-                f"exp({sp.sstr(c1)}*s) is a time advance (output before input), not a causal system",
+                f"exp({sp.sstr(c1 * S)}) is a time advance (output before input), not a causal system",
                 "delays are written exp(-T*s) with T >= 0")
         if not (delay.is_nonnegative or delay.free_symbols):
             raise UnsupportedExpressionError(f"delay {delay} is not a real number")

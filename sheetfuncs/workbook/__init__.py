@@ -1,0 +1,1 @@
+"""Workbook files: reading formula cells and writing cached results."""

@@ -1,0 +1,536 @@
+"""Reading a workbook for ``fill``: formula trees, A1 references, cells and names.
+
+This module turns formula text into a small tree (over openpyxl's tokenizer)
+and holds a read-only snapshot of a workbook's cells and defined names.  It
+does no evaluation; ordering and computing live in ``plan.py``.  Errors are
+``WorkbookError`` without file or cell; callers add where they happened.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import os
+import re
+import warnings
+from typing import Any, NamedTuple, Union
+
+from openpyxl.formula.tokenizer import Token, Tokenizer
+
+from sheetfuncs.errors import WorkbookError
+
+MAX_ROW = 1_048_576
+MAX_COL = 16_384
+
+
+# --------------------------------------------------------------------------
+# formula trees
+# --------------------------------------------------------------------------
+
+class Num(NamedTuple):
+    value: float
+
+
+class Text(NamedTuple):
+    value: str
+
+
+class Bool(NamedTuple):
+    value: bool
+
+
+class Missing(NamedTuple):
+    """An argument left out, as in ``F(1,,3)``."""
+
+
+class ErrorLit(NamedTuple):
+    code: str
+
+
+class Ref(NamedTuple):
+    """A cell or rectangle on ``sheet`` (rows and columns 1-based, inclusive)."""
+    sheet: str
+    r1: int
+    c1: int
+    r2: int
+    c2: int
+
+
+class Name(NamedTuple):
+    """A defined name; ``sheet`` is the qualifier written in front, if any."""
+    sheet: str | None
+    name: str
+
+
+class Neg(NamedTuple):
+    operand: Any
+
+
+class Percent(NamedTuple):
+    operand: Any
+
+
+class BinOp(NamedTuple):
+    op: str
+    left: Any
+    right: Any
+
+
+class Call(NamedTuple):
+    name: str          # canonical: upper case, without _xlfn./_xludf. prefixes
+    ours: bool
+    args: tuple
+
+
+class ArrayLit(NamedTuple):
+    rows: tuple        # tuple of tuples of constants
+
+
+Node = Union[Num, Text, Bool, Missing, ErrorLit, Ref, Name, Neg, Percent, BinOp, Call, ArrayLit]
+
+_XL_PREFIXES = ("_XLFN.", "_XLUDF.", "_XLWS.")
+
+
+def canonical_function(raw: str) -> str:
+    """``'_xlfn._xludf.sf_stepat'`` -> ``'SF_STEPAT'`` (``@`` is handled by the parser)."""
+    name = raw.upper()
+    stripped = True
+    while stripped:
+        stripped = False
+        for p in _XL_PREFIXES:
+            if name.startswith(p):
+                name = name[len(p):]
+                stripped = True
+    return name
+
+
+def tokenize(text: str) -> list[Token]:
+    """Tokens of ``text`` without white space; WorkbookError if unreadable."""
+    try:
+        items = Tokenizer(text).items
+    except IndexError:          # the tokenizer pops an empty stack on a stray ')'
+        raise WorkbookError(f"cannot read the formula {_clip(text)}: a ')' has no matching '('") from None
+    except Exception as exc:    # TokenizerError and the asserts inside the tokenizer
+        raise WorkbookError(f"cannot read the formula {_clip(text)}: {_short(exc, text)}") from exc
+    return [t for t in items if t.type != Token.WSPACE]
+
+
+def parse_formula(text: str, sheet: str, prefix: str) -> Node:
+    """Tree of formula ``text`` (with its ``=``) written on ``sheet``."""
+    return parse_tokens(tokenize(text), text, sheet, prefix)
+
+
+def parse_tokens(tokens: list[Token], text: str, sheet: str, prefix: str) -> Node:
+    """Tree from the tokens ``tokenize(text)`` returned."""
+    try:
+        return _Parser(tokens, text, sheet, prefix.upper()).parse()
+    except RecursionError:
+        raise WorkbookError(f"cannot read the formula {_clip(text)}: it is nested too deeply") from None
+
+
+def parse_name_text(text: str, sheet: str, prefix: str) -> Node:
+    """Tree of a defined name's text (stored without ``=``)."""
+    return parse_formula(text if text.startswith("=") else "=" + text, sheet, prefix)
+
+
+class _Parser:
+    """Recursive descent with Excel's precedence: ``-x`` > ``%`` > ``^`` > ``* /`` > ``+ -``.
+
+    Excel negates before it raises to a power (``=-2^2`` is 4) and ``^`` groups
+    from the left (``=2^3^2`` is 64); both are kept.
+    """
+
+    def __init__(self, tokens: list[Token], text: str, sheet: str, prefix: str):
+        self.toks, self.text, self.sheet, self.prefix = tokens, text, sheet, prefix
+        self.pos = 0
+
+    def fail(self, reason: str) -> WorkbookError:
+        return WorkbookError(f"cannot read the formula {_clip(self.text)}: {reason}")
+
+    def peek(self) -> Token | None:
+        return self.toks[self.pos] if self.pos < len(self.toks) else None
+
+    def parse(self) -> Node:
+        if not self.toks:
+            raise self.fail("it is empty")
+        if self.toks[0].type == Token.LITERAL:
+            raise self.fail("it does not start with '='")
+        node = self.expr()
+        tok = self.peek()
+        if tok is not None:
+            raise self.fail(f"unexpected '{tok.value}'")
+        return node
+
+    def expr(self) -> Node:
+        node = self.additive()
+        tok = self.peek()
+        if tok is not None and tok.type == Token.OP_IN and tok.value not in "+-*/^":
+            what = "range union" if tok.value == "," else f"operator {tok.value}"
+            raise self.fail(f"{what} is not supported by fill")
+        return node
+
+    def _binary(self, ops: str, sub) -> Node:
+        node = sub()
+        while True:
+            tok = self.peek()
+            if tok is None or tok.type != Token.OP_IN or tok.value not in ops:
+                return node
+            self.pos += 1
+            node = BinOp(tok.value, node, sub())
+
+    def additive(self) -> Node:
+        return self._binary("+-", self.multiplicative)
+
+    def multiplicative(self) -> Node:
+        return self._binary("*/", self.power)
+
+    def power(self) -> Node:
+        return self._binary("^", self.unary)
+
+    def unary(self) -> Node:
+        tok = self.peek()
+        if tok is not None and tok.type == Token.OP_PRE:
+            self.pos += 1
+            inner = self.unary()
+            return Neg(inner) if tok.value == "-" else inner
+        node = self.primary()
+        while (tok := self.peek()) is not None and tok.type == Token.OP_POST:
+            self.pos += 1
+            node = Percent(node)
+        return node
+
+    def primary(self) -> Node:
+        tok = self.peek()
+        if tok is None:
+            raise self.fail("it ends too early")
+        self.pos += 1
+        if tok.type == Token.OPERAND:
+            return self.operand(tok)
+        if tok.type == Token.FUNC and tok.subtype == Token.OPEN:
+            return self.call(tok.value[:-1])
+        if tok.type == Token.PAREN and tok.subtype == Token.OPEN:
+            node = self.expr()
+            self.expect(Token.PAREN)
+            return node
+        if tok.type == Token.ARRAY and tok.subtype == Token.OPEN:
+            return self.array()
+        raise self.fail(f"unexpected '{tok.value}'")
+
+    def expect(self, kind: str) -> None:
+        tok = self.peek()
+        if tok is None:
+            raise self.fail("a '(' is not closed")
+        if tok.type != kind or tok.subtype != Token.CLOSE:
+            raise self.fail(f"unexpected '{tok.value}'")
+        self.pos += 1
+
+    def operand(self, tok: Token) -> Node:
+        value = tok.value
+        if tok.subtype == Token.NUMBER:
+            return Num(float(value))
+        if tok.subtype == Token.TEXT:
+            return Text(value[1:-1].replace('""', '"'))
+        if tok.subtype == Token.LOGICAL:
+            return Bool(value == "TRUE")
+        if tok.subtype == Token.ERROR:
+            return ErrorLit(value[value.index("#"):])
+        if value.upper() in ("TRUE", "FALSE"):
+            return Bool(value.upper() == "TRUE")
+        return parse_reference(value, self.sheet)
+
+    def call(self, raw: str) -> Node:
+        implicit = raw.startswith("@")
+        name = canonical_function(raw.lstrip("@"))
+        args: list[Node] = []
+        tok = self.peek()
+        if tok is not None and tok.type == Token.FUNC and tok.subtype == Token.CLOSE:
+            self.pos += 1
+        else:
+            while True:
+                tok = self.peek()
+                if tok is not None and (tok.type == Token.SEP
+                                        or (tok.type == Token.FUNC and tok.subtype == Token.CLOSE)):
+                    args.append(Missing())
+                else:
+                    args.append(self.expr())
+                tok = self.peek()
+                if tok is None:
+                    raise self.fail(f"the '(' after {name} is not closed")
+                if tok.type == Token.SEP and tok.subtype == Token.ARG:
+                    self.pos += 1
+                    continue
+                self.expect(Token.FUNC)
+                break
+        node: Node = Call(name, name.startswith(self.prefix), tuple(args))
+        # '@' asks for implicit intersection, which for a computed array is its first item
+        return Call("SINGLE", False, (node,)) if implicit else node
+
+    def array(self) -> Node:
+        rows: list[tuple] = []
+        row: list[Any] = []
+        while True:
+            tok = self.peek()
+            if tok is None:
+                raise self.fail("a '{' is not closed")
+            self.pos += 1
+            sign = 1.0
+            if tok.type == Token.OP_PRE:
+                sign = -1.0 if tok.value == "-" else 1.0
+                tok = self.peek()
+                if tok is None or tok.subtype != Token.NUMBER:
+                    raise self.fail("only constants may appear inside { }")
+                self.pos += 1
+            if tok.type != Token.OPERAND or tok.subtype == Token.RANGE:
+                raise self.fail("only constants may appear inside { }")
+            item = self.operand(tok)
+            row.append(sign * item.value if isinstance(item, Num) else item.value)
+            tok = self.peek()
+            if tok is None:
+                raise self.fail("a '{' is not closed")
+            self.pos += 1
+            if tok.type == Token.SEP and tok.subtype == Token.ROW:
+                rows.append(tuple(row))
+                row = []
+            elif tok.type == Token.ARRAY and tok.subtype == Token.CLOSE:
+                rows.append(tuple(row))
+                break
+            elif not (tok.type == Token.SEP and tok.subtype == Token.ARG):
+                raise self.fail(f"unexpected '{tok.value}' inside {{ }}")
+        if len({len(r) for r in rows}) != 1:
+            raise self.fail("the rows of { } have different lengths")
+        return ArrayLit(tuple(rows))
+
+
+# --------------------------------------------------------------------------
+# A1 references
+# --------------------------------------------------------------------------
+
+_SHEET = r"(?:(?P<sheet>'(?:[^']|'')+'|[^'!\[\]:]+)!)?"
+_CELL_RE = re.compile(_SHEET + r"\$?(?P<c1>[A-Za-z]{1,3})\$?(?P<r1>[0-9]+)"
+                      r"(?::\$?(?P<c2>[A-Za-z]{1,3})\$?(?P<r2>[0-9]+))?$")
+_WHOLE_RE = re.compile(_SHEET + r"(?:\$?[A-Za-z]{1,3}:\$?[A-Za-z]{1,3}|\$?[0-9]+:\$?[0-9]+)$")
+_NAME_RE = re.compile(_SHEET + r"(?P<name>[A-Za-z_\\][A-Za-z0-9_.\\?]*)$")
+
+
+def column_index(letters: str) -> int:
+    n = 0
+    for ch in letters.upper():
+        n = n * 26 + ord(ch) - 64
+    return n
+
+
+def column_letters(index: int) -> str:
+    out = ""
+    while index:
+        index, rem = divmod(index - 1, 26)
+        out = chr(65 + rem) + out
+    return out
+
+
+def _unquote(sheet: str | None) -> str | None:
+    if sheet and sheet.startswith("'"):
+        return sheet[1:-1].replace("''", "'")
+    return sheet
+
+
+def parse_reference(text: str, sheet: str) -> Ref | Name:
+    """``Ref`` or ``Name`` for an operand such as ``'My Sheet'!$A$1:B5`` or ``gain``."""
+    if "[" in text:
+        raise WorkbookError(f"'{text}' refers to another workbook or a table; fill reads only "
+                            "plain references inside this workbook")
+    m = _CELL_RE.match(text)
+    if m:
+        c1, r1 = column_index(m["c1"]), int(m["r1"])
+        c2, r2 = (column_index(m["c2"]), int(m["r2"])) if m["c2"] else (c1, r1)
+        if all(1 <= c <= MAX_COL for c in (c1, c2)) and all(1 <= r <= MAX_ROW for r in (r1, r2)):
+            return Ref(_unquote(m["sheet"]) or sheet,
+                       min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2))
+    if _WHOLE_RE.match(text):
+        raise WorkbookError(f"whole rows or columns ('{text}') are not supported; "
+                            "use a range such as A1:A100")
+    m = _NAME_RE.match(text)
+    if m:
+        return Name(_unquote(m["sheet"]), m["name"])
+    raise WorkbookError(f"'{text}' is neither a reference nor a name")
+
+
+def sheet_prefix(sheet: str) -> str:
+    if re.fullmatch(r"[A-Za-z_][A-Za-z0-9_.]*", sheet) and not _CELL_RE.match(sheet):
+        return sheet + "!"
+    return "'" + sheet.replace("'", "''") + "'!"
+
+
+def cell_label(sheet: str, row: int, col: int) -> str:
+    """``Data!B5`` / ``'My Sheet'!B5``, as Excel writes it."""
+    return f"{sheet_prefix(sheet)}{column_letters(col)}{row}"
+
+
+def ref_label(ref: Ref) -> str:
+    first = f"{column_letters(ref.c1)}{ref.r1}"
+    if (ref.r1, ref.c1) == (ref.r2, ref.c2):
+        return sheet_prefix(ref.sheet) + first
+    return f"{sheet_prefix(ref.sheet)}{first}:{column_letters(ref.c2)}{ref.r2}"
+
+
+# --------------------------------------------------------------------------
+# workbook snapshot
+# --------------------------------------------------------------------------
+
+class Formula(NamedTuple):
+    """A formula cell: its text and, for an array formula, the range it covers."""
+    text: str | None
+    spill: tuple[int, int, int, int] | None
+
+
+class ErrorValue(NamedTuple):
+    code: str
+
+
+NOTHING = object()   # "no cached value"
+
+
+def _plain(value: Any, data_type: str) -> Any:
+    """A stored cell value as xlwings would hand it over (numbers as float)."""
+    if data_type == "e":
+        return ErrorValue(str(value))
+    if value is None or isinstance(value, (bool, str, float)):
+        return value
+    if isinstance(value, int):
+        return float(value)
+    if isinstance(value, (_dt.datetime, _dt.date, _dt.time, _dt.timedelta)):
+        from openpyxl.utils.datetime import to_excel
+        return float(to_excel(value))
+    return str(value)
+
+
+def _cells_of(ws):
+    # Worksheet._cells holds only the stored cells; iter_rows() would create
+    # every cell of the bounding box, which is slow for sparse sheets.
+    cells = getattr(ws, "_cells", None)
+    if isinstance(cells, dict):
+        return cells.items()
+    return (((c.row, c.column), c) for row in ws.iter_rows() for c in row
+            if getattr(c, "value", None) is not None)
+
+
+class Book:
+    """Cells and defined names of one workbook, read once.
+
+    ``cells[sheet][(row, col)]`` holds a plain value, an ``ErrorValue`` or a
+    ``Formula``.  Cached results of formulas come from a second, data-only
+    reading of the file, done on first use (none for a Workbook object).
+    """
+
+    def __init__(self, wb: Any, path: str | None):
+        self.path = path
+        self.label = path if path is not None else "workbook"
+        self.sheets: list[str] = []
+        self.cells: dict[str, dict[tuple[int, int], Any]] = {}
+        self._sheet_key: dict[str, str] = {}
+        self.book_names: dict[str, str] = {}
+        self.sheet_names: dict[str, dict[str, str]] = {}
+        self._cached: dict[str, dict[tuple[int, int], Any]] | None = None
+        for name, dn in wb.defined_names.items():
+            self.book_names[name.lower()] = dn.attr_text
+        for ws in wb.worksheets:
+            self.sheets.append(ws.title)
+            self._sheet_key[ws.title.lower()] = ws.title
+            self.sheet_names[ws.title] = {n.lower(): dn.attr_text
+                                          for n, dn in getattr(ws, "defined_names", {}).items()}
+            grid: dict[tuple[int, int], Any] = {}
+            for pos, cell in _cells_of(ws):
+                value = cell.value
+                if value is None:
+                    continue
+                if cell.data_type == "f":
+                    grid[pos] = _formula(value)
+                else:
+                    grid[pos] = _plain(value, cell.data_type)
+            self.cells[ws.title] = grid
+
+    def sheet(self, name: str) -> str:
+        """The sheet's real name (sheet names are case-insensitive)."""
+        try:
+            return self._sheet_key[name.lower()]
+        except KeyError:
+            raise WorkbookError(f"there is no sheet named '{name}'") from None
+
+    def name_text(self, name: Name, sheet: str) -> tuple[str, str]:
+        """(text, sheet to read it on) of a defined name used on ``sheet``;
+        a sheet's own names come before the workbook's."""
+        scope = self.sheet(name.sheet) if name.sheet else sheet
+        key = name.name.lower()
+        text = self.sheet_names.get(scope, {}).get(key)
+        if text is None:
+            text = self.book_names.get(key)
+        if text is None:
+            shown = (sheet_prefix(name.sheet) if name.sheet else "") + name.name
+            raise WorkbookError(f"unknown name '{shown}' (not a reference and not a defined name)")
+        return text, scope
+
+    def cached(self, sheet: str, pos: tuple[int, int]) -> Any:
+        """Value Excel (or LibreOffice) stored for a formula cell, or NOTHING."""
+        if self._cached is None:
+            self._cached = self._read_cached()
+        value = self._cached.get(sheet, {}).get(pos, NOTHING)
+        return NOTHING if value is None else value
+
+    def _read_cached(self) -> dict[str, dict[tuple[int, int], Any]]:
+        out: dict[str, dict[tuple[int, int], Any]] = {}
+        if self.path is None:
+            return out
+        try:
+            wb = _load(self.path, data_only=True)
+        except WorkbookError:
+            return out
+        for ws in wb.worksheets:
+            formulas = [p for p, v in self.cells.get(ws.title, {}).items() if isinstance(v, Formula)]
+            cells = getattr(ws, "_cells", {})
+            out[ws.title] = {p: _plain(cells[p].value, cells[p].data_type)
+                             for p in formulas if p in cells and cells[p].value is not None}
+        return out
+
+
+def _formula(value: Any) -> Formula:
+    text = getattr(value, "text", value)        # ArrayFormula keeps its text in .text
+    if not isinstance(text, str):
+        return Formula(None, None)                # data tables and other exotic kinds
+    spill = None
+    ref = getattr(value, "ref", None)
+    if isinstance(ref, str) and ":" in ref:
+        r = parse_reference(ref, "")
+        if isinstance(r, Ref):
+            spill = (r.r1, r.c1, r.r2, r.c2)
+    return Formula(text if text.startswith("=") else "=" + text, spill)
+
+
+def _load(path: str, *, data_only: bool):
+    import openpyxl
+    try:
+        with warnings.catch_warnings():
+            # openpyxl warns about parts it drops (validation, slicers ...); they
+            # do not matter for reading values, and fill never saves with openpyxl.
+            warnings.simplefilter("ignore")
+            return openpyxl.load_workbook(path, data_only=data_only, keep_links=False)
+    except FileNotFoundError:
+        raise WorkbookError("file not found", file=path) from None
+    except Exception as exc:
+        raise WorkbookError(f"cannot be read as an .xlsx/.xlsm workbook ({_short(exc, '')})",
+                            file=path) from exc
+
+
+def open_book(book_or_path: Any) -> Book:
+    """Book for an openpyxl Workbook or a path to .xlsx/.xlsm."""
+    if hasattr(book_or_path, "worksheets") and hasattr(book_or_path, "defined_names"):
+        return Book(book_or_path, None)
+    path = os.fspath(book_or_path)
+    return Book(_load(path, data_only=False), path)
+
+
+def _clip(text: str, n: int = 60) -> str:
+    return repr(text if len(text) <= n else text[: n - 3] + "...")
+
+
+def _short(exc: Exception, text: str) -> str:
+    msg = str(exc) or type(exc).__name__
+    if text:
+        msg = msg.replace(f" in '{text}'", "").replace(f" in {text}", "")
+    return msg
