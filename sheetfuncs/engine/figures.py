@@ -90,9 +90,10 @@ def _poles(result) -> list[tuple[complex, int]]:
             re, im = pair(pole)
             if isinstance(re, str) or isinstance(im, str):
                 raise ParameterError("pole figures need values for the parameters", None)
-            key = complex(round(re, 12), round(im, 12))
-            acc[key] = max(acc.get(key, 0), mult)
-    return sorted(acc.items(), key=lambda kv: (-kv[0].real, kv[0].imag))
+            key = (round(re, 10), round(im, 10))
+            value, m0 = acc.get(key, (complex(re, im), 0))
+            acc[key] = (value, max(m0, mult))
+    return sorted(acc.values(), key=lambda kv: (-kv[0].real, kv[0].imag))
 
 
 def _stability(poles) -> tuple[bool | None, str]:
