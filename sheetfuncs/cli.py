@@ -86,6 +86,20 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--input", default=None, help="U(s), the transformed input")
     c.add_argument("--input-t", default=None, help="u(t), the input as a time signal")
 
+    c = sub.add_parser("fill", help="compute the sheetfuncs cells of workbooks headlessly")
+    c.add_argument("books", nargs="+", metavar="BOOK", help=".xlsx/.xlsm files or folders")
+    c.add_argument("-o", "--output", help="output file (one book) or folder")
+    c.add_argument("--in-place", action="store_true", help="overwrite the input (keeps BOOK.bak)")
+    c.add_argument("--no-cache", action="store_true", help="do not use the persistent result cache")
+    c.add_argument("--json", action="store_true", help="print JSON")
+    c.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+
+    c = sub.add_parser("demo", help="copy the example workbooks to DIR, fill them, show key figures")
+    c.add_argument("dir", nargs="?", default=None, metavar="DIR",
+                   help="folder to create (default: a new sheetfuncs-demo folder here)")
+    c.add_argument("--json", action="store_true", help="print JSON")
+    c.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+
     c = sub.add_parser("transform", help="forward transform of a time signal")
     c.add_argument("signal", metavar="SIGNAL", help="e.g. 'exp(-2t) sin(3t)', 'u(t) - u(t-1)'")
     common(c, expr=False)
@@ -102,6 +116,9 @@ def main(argv=None) -> int:
             raise _UsageError("give a command: invert, sample, figures, ode or transform "
                               "(sheetfuncs --help lists them)")
         out = _run(args)
+    except _Partial as exc:          # results already printed; say what failed
+        print(f"error: {exc}", file=sys.stderr)
+        return EXIT_USAGE
     except SheetfuncsError as exc:
         return _fail(str(exc), want_json)
     except KeyboardInterrupt:
@@ -117,6 +134,35 @@ def main(argv=None) -> int:
     return 0
 
 
+def _fill(args):
+    from .fill import fill_many
+    if args.in_place and args.output:
+        raise _UsageError("give either --in-place or -o, not both")
+    reports, failures = fill_many(args.books, args.output, in_place=args.in_place,
+                                  use_cache=not args.no_cache, progress=sys.stderr.isatty())
+    if failures and not reports and len(failures) == 1:
+        raise SheetfuncsError(failures[0][1])
+    if args.json:
+        out = {"filled": [r.to_dict() for r in reports],
+               "failed": [{"file": f, "error": e} for f, e in failures]}
+    else:
+        lines = []
+        for r in reports:
+            lines.append(f"{r.output}: {r.cells} cells ({r.errors} with errors, {r.spilled} spilled, "
+                         f"{r.cache_hits} from cache) in {r.seconds:.2f} s")
+            lines += [f"  {c}: {e}" for c, e in r.error_cells]
+        lines += [f"error: {f}: {e}" for f, e in failures]
+        out = "\n".join(lines)
+    if failures:
+        print(json.dumps(out) if args.json else out)
+        raise _Partial(f"{len(failures)} of {len(failures) + len(reports)} workbooks failed")
+    return out
+
+
+class _Partial(SheetfuncsError):
+    pass
+
+
 def _fail(message: str, want_json: bool) -> int:
     print(f"error: {message}", file=sys.stderr)
     if want_json:
@@ -125,6 +171,12 @@ def _fail(message: str, want_json: bool) -> int:
 
 
 def _run(args):
+    if args.command == "fill":
+        return _fill(args)
+    if args.command == "demo":
+        from .demo import run_demo
+        result = run_demo(args.dir)
+        return result.to_dict() if args.json else result.text()
     from . import api
     from . import report
     params = _params(args.param)

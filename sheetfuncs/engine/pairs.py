@@ -12,6 +12,7 @@ from __future__ import annotations
 import sympy as sp
 
 from .._types import S, T
+from .split import additive_terms
 
 _k = sp.Wild("k", exclude=[S], properties=[lambda x: x.is_positive])
 _a = sp.Wild("a", exclude=[S], properties=[lambda x: x.is_real])
@@ -42,14 +43,16 @@ def _pairs():
 
 def invert_by_pairs(F: sp.Expr):
     """f(t) from the pair table, or None."""
-    terms = sp.Add.make_args(sp.expand(F, deep=False))
-    parts = []
-    for term in terms:
-        f = _invert_term(term)
-        if f is None:
-            return None
-        parts.append(f)
-    return sp.Add(*parts)
+    for terms in (sp.Add.make_args(F), additive_terms(F), sp.Add.make_args(sp.expand(F, deep=False))):
+        parts = []
+        for term in terms:
+            f = _invert_term(term)
+            if f is None:
+                break
+            parts.append(f)
+        else:
+            return sp.Add(*parts)
+    return None
 
 
 def _invert_term(term):
@@ -61,7 +64,7 @@ def _invert_term(term):
         arg = sp.expand(e.args[0])
         c1 = arg.coeff(S, 1)
         c0 = arg - c1 * S
-        if not c0.has(S) and not c1.has(S) and c1 != 0 and c1.is_nonpositive:
+        if not c1.has(S) and c1 != 0 and c1.is_nonpositive:
             delay += -c1
             coeff *= sp.exp(c0)
             rest = rest / e

@@ -108,6 +108,7 @@ def sample(expr, times=None, *, start=None, stop=None, n=None, input="impulse",
 def sample_result(result, grid: np.ndarray) -> Samples:
     if result.f_t is None:
         inv = result.numerical
+        inv.verify(grid)
         y = np.array([inv.value(float(t)) for t in grid])
         return Samples(grid, y, (), True, result.method)
     _require_numbers(result.f_t)
@@ -129,10 +130,32 @@ def evaluate(result, grid: np.ndarray) -> np.ndarray:
                 f = numpy_function(sp.expand(piece.gain) * time_function(piece.decomposition))
                 y[mask] += f(grid[mask] - delay)
         else:
-            mask = grid >= 0
-            f = numpy_function(result.f_t)
-            y[mask] = f(grid[mask])
+            for start, term in delayed_terms(result.f_t):
+                mask = grid >= start
+                if mask.any():
+                    y[mask] += numpy_function(term)(grid[mask])
     return y
+
+
+def delayed_terms(f: sp.Expr) -> list[tuple[float, sp.Expr]]:
+    """f as [(start, term)]: each term is zero before its start (its Heaviside
+    factors are dropped and the term is evaluated only from there on)."""
+    groups: dict[float, list] = {}
+    for term in sp.Add.make_args(sp.expand(f, mul=True, multinomial=False, power_exp=False,
+                                           power_base=False, log=False)):
+        start = 0.0
+        rest = []
+        for factor in sp.Mul.make_args(term):
+            if isinstance(factor, sp.Heaviside) and len(factor.args) >= 1:
+                arg = sp.expand(factor.args[0])
+                a = arg.coeff(T)
+                b = arg - a * T
+                if a.is_positive and not b.has(T) and b.is_number:
+                    start = max(start, float(-b / a))
+                    continue
+            rest.append(factor)
+        groups.setdefault(start, []).append(sp.Mul(*rest))
+    return [(k, sp.Add(*v)) for k, v in sorted(groups.items())]
 
 
 def _require_numbers(f):
@@ -146,6 +169,7 @@ def numpy_function(f: sp.Expr):
     """A vectorised numpy function of t for f (DiracDelta dropped,
     Heaviside right-continuous)."""
     f = f.replace(lambda e: isinstance(e, sp.DiracDelta), lambda e: sp.S.Zero)
+    f = floats(f)           # exact 35-digit rationals inside sqrt() are not numpy numbers
     mods = [{"Heaviside": lambda x, *a: np.heaviside(x, 1.0)}, "scipy", "numpy"]
     fn = sp.lambdify(T, f, modules=mods)
 
@@ -153,6 +177,19 @@ def numpy_function(f: sp.Expr):
         out = fn(t)
         return np.broadcast_to(np.asarray(out, dtype=float), np.shape(t)).astype(float)
     return call
+
+
+def floats(e: sp.Expr) -> sp.Expr:
+    """Every numeric subexpression of e as a float (integers and integer
+    exponents kept), ready for numpy."""
+    if e.is_Integer or e.is_Symbol:
+        return e
+    if e.is_number:
+        v = sp.N(e, 17)
+        return v if v.is_real else e
+    if e.is_Pow and e.exp.is_Integer:
+        return sp.Pow(floats(e.base), e.exp)
+    return e.func(*[floats(a) for a in e.args])
 
 
 def impulses_of(f: sp.Expr) -> tuple:

@@ -71,3 +71,19 @@ def split_delays(F: sp.Expr) -> list[Piece] | None:
     for delay in sorted(groups, key=lambda d: (bool(d.free_symbols), float(d) if d.is_number else 0.0)):
         pieces.append(Piece(delay, sp.S.One, sp.Add(*groups[delay]), den))
     return pieces
+
+
+def additive_terms(F: sp.Expr, limit: int = 256) -> list[sp.Expr]:
+    """F as a list of terms, products over sums in the numerator distributed
+    (denominators and exponentials left alone), e.g. (1 - e^{-s})/sqrt(s) ->
+    [1/sqrt(s), -e^{-s}/sqrt(s)]."""
+    out = []
+    for term in sp.Add.make_args(F):
+        parts = [[]]
+        for f in sp.Mul.make_args(term):
+            if f.is_Add and len(parts) * len(f.args) <= limit:
+                parts = [p + [a] for p in parts for a in f.args]
+            else:
+                parts = [p + [f] for p in parts]
+        out.extend(sp.Mul(*p) for p in parts)
+    return out

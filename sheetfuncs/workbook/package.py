@@ -44,7 +44,7 @@ from lxml import etree
 
 from ..errors import WorkbookError
 
-__all__ = ["CellWrite", "Package", "read_package", "write_results", "NONFINITE_TEXT"]
+__all__ = ["CellWrite", "Package", "read_package", "write_results", "defined_names", "NONFINITE_TEXT"]
 
 #: cached text written for NaN / infinity
 NONFINITE_TEXT = "SF! not a finite number"
@@ -497,19 +497,55 @@ def _patch_sheet(pkg: Package, member: str, sheet: str, writes: list, counts: di
     return _serialize(sh.root)
 
 
-def _patch_calc(pkg: Package) -> bytes | None:
+def _patch_calc(pkg: Package, calc_off: bool = True, names: dict | None = None,
+                names_prefix: str = "") -> bytes | None:
+    """workbook.xml with fullCalcOnLoad removed and, when ``names`` is given,
+    every defined name starting with ``names_prefix`` replaced by ``names``
+    (written hidden)."""
     root = pkg.xml(pkg.workbook_part)
     changed = False
-    for calc in root.iter("{*}calcPr"):
-        if calc.get("fullCalcOnLoad") not in (None, "0", "false"):
-            del calc.attrib["fullCalcOnLoad"]
+    if calc_off:
+        for calc in root.iter("{*}calcPr"):
+            if calc.get("fullCalcOnLoad") not in (None, "0", "false"):
+                del calc.attrib["fullCalcOnLoad"]
+                changed = True
+    if names is not None and names_prefix:
+        ns = root.nsmap.get(None) or "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
+        container = root.find(f"{{{ns}}}definedNames")
+        if container is not None:
+            for el in list(container):
+                if (el.get("name") or "").startswith(names_prefix):
+                    container.remove(el)
+                    changed = True
+        if names:
+            if container is None:
+                container = etree.Element(f"{{{ns}}}definedNames")
+                sheets = root.find(f"{{{ns}}}sheets")
+                if sheets is None:
+                    raise WorkbookError("workbook.xml has no <sheets>", file=pkg.file)
+                sheets.addnext(container)
+            for name, text in sorted(names.items()):
+                el = etree.SubElement(container, f"{{{ns}}}definedName", name=name, hidden="1")
+                el.text = text
             changed = True
     return _serialize(root) if changed else None
 
 
+def defined_names(pkg: Package, prefix: str = "") -> dict[str, str]:
+    """Workbook-scoped defined names starting with ``prefix``: name -> text."""
+    root = pkg.xml(pkg.workbook_part)
+    out = {}
+    for el in root.iter("{*}definedName"):
+        name = el.get("name") or ""
+        if name.startswith(prefix) and el.get("localSheetId") is None:
+            out[name] = el.text or ""
+    return out
+
+
 # ---------------------------------------------------------------- writing
 
-def write_results(src, dst, writes: Iterable[CellWrite], *, calc_full_on_load_off: bool = True) -> dict:
+def write_results(src, dst, writes: Iterable[CellWrite], *, calc_full_on_load_off: bool = True,
+                  names: dict | None = None, names_prefix: str = "") -> dict:
     """Copy package ``src`` to ``dst`` with ``writes`` applied; atomic; returns counts.
 
     On any problem a WorkbookError (naming file and cell) is raised and ``dst``
@@ -544,11 +580,11 @@ def write_results(src, dst, writes: Iterable[CellWrite], *, calc_full_on_load_of
     for member, (title, items) in by_member.items():
         patched[member] = _patch_sheet(pkg, member, title, items, counts)
     counts["sheets_patched"] = len(patched)
-    if calc_full_on_load_off:
-        wb = _patch_calc(pkg)
+    if calc_full_on_load_off or names is not None:
+        wb = _patch_calc(pkg, calc_full_on_load_off, names, names_prefix)
         if wb is not None:
             patched[pkg.workbook_part] = wb
-            counts["full_calc_on_load_removed"] = True
+            counts["full_calc_on_load_removed"] = calc_full_on_load_off
     _write_zip(pkg, dst, patched)
     return counts
 

@@ -1,8 +1,11 @@
-"""Reading a workbook for ``fill``: formula trees, A1 references, cells and names.
+"""Reading a workbook for ``fill``: formula trees, references, cells, names, reach.
 
-This module turns formula text into a small tree (over openpyxl's tokenizer)
-and holds a read-only snapshot of a workbook's cells and defined names.  It
-does no evaluation; ordering and computing live in ``plan.py``.  Errors are
+* formula text -> a small tree of NamedTuples, over openpyxl's tokenizer;
+* A1 reference text -> ``Ref`` / ``Name``, and labels such as ``'My Sheet'!B5``;
+* ``Book``: a read-only snapshot of cells, defined names and cached values;
+* ``Reach``: which cells a formula reads and which of our cells those depend on.
+
+Nothing here evaluates; ordering and computing live in ``plan.py``.  Errors are
 ``WorkbookError`` without file or cell; callers add where they happened.
 """
 from __future__ import annotations
@@ -11,7 +14,7 @@ import datetime as _dt
 import os
 import re
 import warnings
-from typing import Any, NamedTuple, Union
+from typing import Any, Callable, Iterable, NamedTuple, Union
 
 from openpyxl.formula.tokenizer import Token, Tokenizer
 
@@ -19,6 +22,16 @@ from sheetfuncs.errors import WorkbookError
 
 MAX_ROW = 1_048_576
 MAX_COL = 16_384
+#: workbook names fill writes to remember the extent of each spill (``'S'!$F$2:$F$201``);
+#: the cells they cover, except the anchor, are emptied unless a new result covers them
+SPILL_NAME_PREFIX = "_sfspill"
+MAX_STALE = 4_000_000                   # cells of one recorded spill we look at
+MAX_NAME_DEPTH = 20                     # defined names inside defined names
+MAX_TREE_DEPTH = 400                    # operators and calls inside one another
+
+Pos = tuple[int, int]                   # (row, col), 1-based
+Key = tuple[str, int, int]              # (sheet, row, col)
+Rect = tuple[str, int, int, int, int]   # (sheet, r1, c1, r2, c2), inclusive
 
 
 # --------------------------------------------------------------------------
@@ -77,14 +90,20 @@ class BinOp(NamedTuple):
 class Call(NamedTuple):
     name: str          # canonical: upper case, without _xlfn./_xludf. prefixes
     ours: bool
-    args: tuple
+    args: tuple[Any, ...]
 
 
 class ArrayLit(NamedTuple):
-    rows: tuple        # tuple of tuples of constants
+    rows: tuple[tuple[Any, ...], ...]     # constants
 
 
-Node = Union[Num, Text, Bool, Missing, ErrorLit, Ref, Name, Neg, Percent, BinOp, Call, ArrayLit]
+class Unsupported(NamedTuple):
+    """Valid formula text that fill does not compute (``A:A``, ``[1]Sheet!A1`` ...)."""
+    reason: str
+
+
+Node = Union[Num, Text, Bool, Missing, ErrorLit, Ref, Name, Neg, Percent, BinOp, Call, ArrayLit,
+             Unsupported]
 
 _XL_PREFIXES = ("_XLFN.", "_XLUDF.", "_XLWS.")
 
@@ -103,14 +122,29 @@ def canonical_function(raw: str) -> str:
 
 
 def tokenize(text: str) -> list[Token]:
-    """Tokens of ``text`` without white space; WorkbookError if unreadable."""
+    """Tokens of ``text``; WorkbookError if unreadable.  White space is dropped,
+    except between two ranges, where it is Excel's intersection operator."""
     try:
         items = Tokenizer(text).items
     except IndexError:          # the tokenizer pops an empty stack on a stray ')'
         raise WorkbookError(f"cannot read the formula {_clip(text)}: a ')' has no matching '('") from None
     except Exception as exc:    # TokenizerError and the asserts inside the tokenizer
         raise WorkbookError(f"cannot read the formula {_clip(text)}: {_short(exc, text)}") from exc
-    return [t for t in items if t.type != Token.WSPACE]
+    out: list[Token] = []
+    for k, t in enumerate(items):
+        if t.type != Token.WSPACE:
+            out.append(t)
+        elif (out and k + 1 < len(items) and _ends_operand(out[-1]) and _starts_operand(items[k + 1])):
+            out.append(Token(" ", Token.OP_IN))     # a space between two ranges: intersection
+    return out
+
+
+def _ends_operand(t: Token) -> bool:
+    return bool(t.subtype == Token.RANGE or (t.subtype == Token.CLOSE and t.type != Token.ARRAY))
+
+
+def _starts_operand(t: Token) -> bool:
+    return bool(t.subtype == Token.RANGE or (t.subtype == Token.OPEN and t.type != Token.ARRAY))
 
 
 def parse_formula(text: str, sheet: str, prefix: str) -> Node:
@@ -121,9 +155,28 @@ def parse_formula(text: str, sheet: str, prefix: str) -> Node:
 def parse_tokens(tokens: list[Token], text: str, sheet: str, prefix: str) -> Node:
     """Tree from the tokens ``tokenize(text)`` returned."""
     try:
-        return _Parser(tokens, text, sheet, prefix.upper()).parse()
+        tree = _Parser(tokens, text, sheet, prefix.upper()).parse()
     except RecursionError:
-        raise WorkbookError(f"cannot read the formula {_clip(text)}: it is nested too deeply") from None
+        tree = None
+    if tree is None or _depth(tree) > MAX_TREE_DEPTH:
+        # the evaluator and the tree walks recurse; keep them far from Python's limit
+        raise WorkbookError(f"cannot read the formula {_clip(text)}: "
+                            "it is too long or nested too deeply")
+    return tree
+
+
+def _depth(tree: Node) -> int:
+    deepest, todo = 0, [(tree, 1)]
+    while todo:
+        node, d = todo.pop()
+        deepest = max(deepest, d)
+        if isinstance(node, BinOp):
+            todo += [(node.left, d + 1), (node.right, d + 1)]
+        elif isinstance(node, (Neg, Percent)):
+            todo.append((node.operand, d + 1))
+        elif isinstance(node, Call):
+            todo += [(a, d + 1) for a in node.args]
+    return deepest
 
 
 def parse_name_text(text: str, sheet: str, prefix: str) -> Node:
@@ -132,7 +185,8 @@ def parse_name_text(text: str, sheet: str, prefix: str) -> Node:
 
 
 class _Parser:
-    """Recursive descent with Excel's precedence: ``-x`` > ``%`` > ``^`` > ``* /`` > ``+ -``.
+    """Recursive descent with Excel's precedence:
+    ``-x`` > ``%`` > ``^`` > ``* /`` > ``+ -`` > ``&`` > comparisons.
 
     Excel negates before it raises to a power (``=-2^2`` is 4) and ``^`` groups
     from the left (``=2^3^2`` is 64); both are kept.
@@ -160,14 +214,14 @@ class _Parser:
         return node
 
     def expr(self) -> Node:
-        node = self.additive()
-        tok = self.peek()
-        if tok is not None and tok.type == Token.OP_IN and tok.value not in "+-*/^":
-            what = "range union" if tok.value == "," else f"operator {tok.value}"
-            raise self.fail(f"{what} is not supported by fill")
-        return node
+        # comparisons, '&' and the range union ',' are kept in the tree; the
+        # evaluator refuses them, so such a cell gets an error, not the whole file
+        return self._binary(("=", "<", ">", "<=", ">=", "<>", ",", " "), self.concat)
 
-    def _binary(self, ops: str, sub) -> Node:
+    def concat(self) -> Node:
+        return self._binary(("&",), self.additive)
+
+    def _binary(self, ops: tuple[str, ...], sub: Callable[[], Node]) -> Node:
         node = sub()
         while True:
             tok = self.peek()
@@ -177,13 +231,13 @@ class _Parser:
             node = BinOp(tok.value, node, sub())
 
     def additive(self) -> Node:
-        return self._binary("+-", self.multiplicative)
+        return self._binary(("+", "-"), self.multiplicative)
 
     def multiplicative(self) -> Node:
-        return self._binary("*/", self.power)
+        return self._binary(("*", "/"), self.power)
 
     def power(self) -> Node:
-        return self._binary("^", self.unary)
+        return self._binary(("^",), self.unary)
 
     def unary(self) -> Node:
         tok = self.peek()
@@ -234,7 +288,10 @@ class _Parser:
             return ErrorLit(value[value.index("#"):])
         if value.upper() in ("TRUE", "FALSE"):
             return Bool(value.upper() == "TRUE")
-        return parse_reference(value, self.sheet)
+        try:
+            return parse_reference(value, self.sheet)
+        except WorkbookError as exc:
+            return Unsupported(exc.message)
 
     def call(self, raw: str) -> Node:
         implicit = raw.startswith("@")
@@ -264,7 +321,7 @@ class _Parser:
         return Call("SINGLE", False, (node,)) if implicit else node
 
     def array(self) -> Node:
-        rows: list[tuple] = []
+        rows: list[tuple[Any, ...]] = []
         row: list[Any] = []
         while True:
             tok = self.peek()
@@ -281,7 +338,12 @@ class _Parser:
             if tok.type != Token.OPERAND or tok.subtype == Token.RANGE:
                 raise self.fail("only constants may appear inside { }")
             item = self.operand(tok)
-            row.append(sign * item.value if isinstance(item, Num) else item.value)
+            if isinstance(item, Num):
+                row.append(sign * item.value)
+            elif isinstance(item, (Text, Bool, ErrorLit)):
+                row.append(item[0])
+            else:
+                raise self.fail("only constants may appear inside { }")
             tok = self.peek()
             if tok is None:
                 raise self.fail("a '{' is not closed")
@@ -353,7 +415,7 @@ def parse_reference(text: str, sheet: str) -> Ref | Name:
 
 
 def sheet_prefix(sheet: str) -> str:
-    if re.fullmatch(r"[A-Za-z_][A-Za-z0-9_.]*", sheet) and not _CELL_RE.match(sheet):
+    if re.fullmatch(r"[^\W\d][\w.]*", sheet) and not _CELL_RE.match(sheet):
         return sheet + "!"
     return "'" + sheet.replace("'", "''") + "'!"
 
@@ -401,7 +463,7 @@ def _plain(value: Any, data_type: str) -> Any:
     return str(value)
 
 
-def _cells_of(ws):
+def _cells_of(ws: Any) -> Iterable[tuple[Pos, Any]]:
     # Worksheet._cells holds only the stored cells; iter_rows() would create
     # every cell of the bounding box, which is slow for sparse sheets.
     cells = getattr(ws, "_cells", None)
@@ -425,11 +487,13 @@ class Book:
         self.sheets: list[str] = []
         self.cells: dict[str, dict[tuple[int, int], Any]] = {}
         self._sheet_key: dict[str, str] = {}
-        self.book_names: dict[str, str] = {}
+        self.book_names: dict[str, str] = {}          # lower-case name -> text
+        self.book_name_case: dict[str, str] = {}      # lower-case name -> name as written
         self.sheet_names: dict[str, dict[str, str]] = {}
         self._cached: dict[str, dict[tuple[int, int], Any]] | None = None
         for name, dn in wb.defined_names.items():
             self.book_names[name.lower()] = dn.attr_text
+            self.book_name_case[name.lower()] = name
         for ws in wb.worksheets:
             self.sheets.append(ws.title)
             self._sheet_key[ws.title.lower()] = ws.title
@@ -445,6 +509,25 @@ class Book:
                 else:
                     grid[pos] = _plain(value, cell.data_type)
             self.cells[ws.title] = grid
+
+    def stale_spill_cells(self) -> set[Key]:
+        """Constant cells inside the spills a previous fill recorded (anchors excluded)."""
+        out: set[Key] = set()
+        for key, text in self.book_names.items():
+            if not key.startswith(SPILL_NAME_PREFIX):
+                continue
+            try:
+                ref = parse_reference(text.lstrip("="), "")
+                sheet = self.sheet(ref.sheet) if isinstance(ref, Ref) else ""
+            except WorkbookError:
+                continue                # a damaged bookkeeping name is ignored
+            if not isinstance(ref, Ref) or (ref.r2 - ref.r1 + 1) * (ref.c2 - ref.c1 + 1) > MAX_STALE:
+                continue
+            grid = self.cells[sheet]
+            out.update((sheet, r, c) for r in range(ref.r1, ref.r2 + 1) for c in range(ref.c1, ref.c2 + 1)
+                       if (r, c) != (ref.r1, ref.c1) and (r, c) in grid
+                       and not isinstance(grid[(r, c)], Formula))
+        return out
 
     def sheet(self, name: str) -> str:
         """The sheet's real name (sheet names are case-insensitive)."""
@@ -502,7 +585,7 @@ def _formula(value: Any) -> Formula:
     return Formula(text if text.startswith("=") else "=" + text, spill)
 
 
-def _load(path: str, *, data_only: bool):
+def _load(path: str, *, data_only: bool) -> Any:
     import openpyxl
     try:
         with warnings.catch_warnings():
@@ -518,10 +601,16 @@ def _load(path: str, *, data_only: bool):
 
 
 def open_book(book_or_path: Any) -> Book:
-    """Book for an openpyxl Workbook or a path to .xlsx/.xlsm."""
+    """Book for a path to .xlsx/.xlsm, an openpyxl Workbook, or a Book (returned as is)."""
+    if isinstance(book_or_path, Book):
+        return book_or_path
     if hasattr(book_or_path, "worksheets") and hasattr(book_or_path, "defined_names"):
         return Book(book_or_path, None)
-    path = os.fspath(book_or_path)
+    try:
+        path = os.fspath(book_or_path)
+    except TypeError:
+        raise WorkbookError(f"expected a path or an openpyxl Workbook, not "
+                            f"{type(book_or_path).__name__}") from None
     return Book(_load(path, data_only=False), path)
 
 
@@ -534,3 +623,197 @@ def _short(exc: Exception, text: str) -> str:
     if text:
         msg = msg.replace(f" in '{text}'", "").replace(f" in {text}", "")
     return msg
+
+
+# --------------------------------------------------------------------------
+# reach: which cells a formula reads, and which of our cells those depend on
+# --------------------------------------------------------------------------
+
+
+
+Deps = frozenset[int]                   # numbers of our cells (anchors)
+
+
+class _NativeInfo(NamedTuple):
+    hard: Deps
+    soft: Deps
+    children: tuple[Key, ...]           # native formula cells read directly
+    rects: list[Rect]
+
+
+class Reach:
+    """Dependencies of formulas on "our" cells (the anchors, numbered by the caller).
+
+    For a rectangle it tells which anchors lie inside (*sure* dependencies),
+    which anchors up and left of a non-formula cell inside could spill into it
+    (*possible* ones), and which native formula cells lie inside; for a native
+    cell, the same through every native cell it reads in turn.  Everything is
+    remembered; nothing is evaluated.
+    """
+
+    def __init__(self, book: Book, anchors: dict[Key, int]):
+        self.book, self.anchors = book, anchors
+        self._mine: dict[str, list[tuple[int, int, int]]] = {}
+        for (sheet, r, c), i in anchors.items():
+            self._mine.setdefault(sheet, []).append((i, r, c))
+        self._trees: dict[tuple[str, str], Node | WorkbookError] = {}
+        self._rects: dict[Rect, tuple[Deps, Deps, tuple[Key, ...]]] = {}
+        self._natives: dict[Key, _NativeInfo] = {}
+        self._closures: dict[Key, tuple[Deps, Deps]] = {}
+        self._native_rects: dict[Key, list[Rect]] = {}
+
+    def tree(self, text: str | None, sheet: str) -> Node:
+        """Parsed text of a native formula or defined name (no calls of ours in them)."""
+        if text is None:
+            raise WorkbookError("this kind of formula cannot be read")
+        key = (text, sheet)
+        tree = self._trees.get(key)
+        if tree is None:
+            try:
+                tree = parse_name_text(text, sheet, "\0")
+            except WorkbookError as exc:
+                tree = exc
+            self._trees[key] = tree
+        if isinstance(tree, WorkbookError):
+            raise tree
+        return tree
+
+    def rects(self, node: Node, sheet: str, out: list[Rect] | None = None, depth: int = 0) -> list[Rect]:
+        """Rectangles ``node`` reads, through defined names too; unknown ones are skipped
+        (they are reported when the value is needed)."""
+        out = [] if out is None else out
+        try:
+            if isinstance(node, Ref):
+                out.append((self.book.sheet(node.sheet), node.r1, node.c1, node.r2, node.c2))
+            elif isinstance(node, Name) and depth < MAX_NAME_DEPTH:
+                text, scope = self.book.name_text(node, sheet)
+                self.rects(self.tree(text, scope), scope, out, depth + 1)
+            elif isinstance(node, Call):
+                if node.name == "ANCHORARRAY" and len(node.args) == 1 and isinstance(node.args[0], Ref):
+                    out.append(self.anchor_rect(node.args[0]))
+                else:
+                    for a in node.args:
+                        self.rects(a, sheet, out, depth)
+            elif isinstance(node, (Neg, Percent)):
+                self.rects(node.operand, sheet, out, depth)
+            elif isinstance(node, BinOp):
+                self.rects(node.left, sheet, out, depth)
+                self.rects(node.right, sheet, out, depth)
+        except WorkbookError:
+            pass
+        return out
+
+    def anchor_rect(self, ref: Ref) -> Rect:
+        """What ``F2#`` reads: our anchor itself, or a native array formula's range."""
+        sheet = self.book.sheet(ref.sheet)
+        f = self.book.cells[sheet].get((ref.r1, ref.c1))
+        if (sheet, ref.r1, ref.c1) not in self.anchors and isinstance(f, Formula) and f.spill:
+            return (sheet, *f.spill)
+        return (sheet, ref.r1, ref.c1, ref.r1, ref.c1)
+
+    def deps(self, node: Node, sheet: str) -> tuple[set[int], set[int]]:
+        """(sure, possible) anchors a formula depends on."""
+        hard: set[int] = set()
+        soft: set[int] = set()
+        for rect in self.rects(node, sheet):
+            h, s, natives = self.rect_info(rect)
+            hard |= h
+            soft |= s
+            for key in natives:
+                ch, cs = self.closure(key)
+                hard |= ch
+                soft |= cs
+        return hard, soft - hard
+
+    def rect_info(self, rect: Rect) -> tuple[Deps, Deps, tuple[Key, ...]]:
+        """(anchors inside, anchors that could spill into it, native formula cells inside)."""
+        info = self._rects.get(rect)
+        if info is not None:
+            return info
+        sheet, r1, c1, r2, c2 = rect
+        grid = self.book.cells[sheet]
+        if (r2 - r1 + 1) * (c2 - c1 + 1) > 4 * len(grid):      # sparse: look at stored cells
+            fpos = {p for p, v in grid.items()
+                    if type(v) is Formula and r1 <= p[0] <= r2 and c1 <= p[1] <= c2}
+        else:
+            fpos = {(r, c) for r in range(r1, r2 + 1) for c in range(c1, c2 + 1)
+                    if type(grid.get((r, c))) is Formula}
+        natives = tuple((sheet, r, c) for r, c in sorted(fpos) if (sheet, r, c) not in self.anchors)
+        mine = self._mine.get(sheet, [])
+        hard = frozenset(i for i, r, c in mine if r1 <= r <= r2 and c1 <= c <= c2)
+        # low[c - c1]: lowest row, in columns >= c, of a cell a spill may cover (not a formula)
+        low = [0] * (c2 - c1 + 2)
+        for c in range(c2, c1 - 1, -1):
+            r = r2
+            while r >= r1 and (r, c) in fpos:
+                r -= 1
+            low[c - c1] = max(r if r >= r1 else 0, low[c - c1 + 1])
+        soft = frozenset(i for i, r, c in mine if c <= c2 and low[max(c, c1) - c1] >= r)
+        info = (hard, soft, natives)
+        self._rects[rect] = info
+        return info
+
+    def _native(self, key: Key) -> _NativeInfo:
+        info = self._natives.get(key)
+        if info is None:
+            sheet, r, c = key
+            cell = self.book.cells[sheet][(r, c)]
+            try:
+                rects = self.rects(self.tree(cell.text, sheet), sheet)
+            except WorkbookError:
+                rects = []
+            hard: set[int] = set()
+            soft: set[int] = set()
+            children: list[Key] = []
+            for rect in rects:
+                h, s, natives = self.rect_info(rect)
+                hard |= h
+                soft |= s
+                children.extend(natives)
+            info = _NativeInfo(frozenset(hard), frozenset(soft), tuple(dict.fromkeys(children)), rects)
+            self._natives[key] = info
+        return info
+
+    def children(self, key: Key) -> tuple[Key, ...]:
+        """Native formula cells that native cell ``key`` reads directly."""
+        return self._native(key).children
+
+    def closure(self, key: Key) -> tuple[Deps, Deps]:
+        """(sure, possible) anchors native cell ``key`` depends on, through other natives."""
+        memo = self._closures
+        if key in memo:
+            return memo[key]
+        stack, opened = [key], set()
+        while stack:        # iterative: chains of native formulas can be thousands long
+            k = stack[-1]
+            if k in memo:
+                stack.pop()
+                continue
+            info = self._native(k)
+            if k not in opened:
+                opened.add(k)
+                stack.extend(ch for ch in info.children if ch not in memo and ch not in opened)
+                continue
+            stack.pop()
+            hard, soft = set(info.hard), set(info.soft)
+            for ch in info.children:     # a child still open is in a cycle: its own cells only
+                ch_hard, ch_soft = memo.get(ch) or self._native(ch)[:2]
+                hard |= ch_hard
+                soft |= ch_soft
+            memo[k] = (frozenset(hard), frozenset(soft))
+        return memo[key]
+
+    def native_rects(self, key: Key) -> list[Rect]:
+        """Every rectangle native cell ``key`` reads, through other natives."""
+        rects = self._native_rects.get(key)
+        if rects is None:
+            rects, seen, todo = [], {key}, [key]
+            while todo:
+                info = self._native(todo.pop())
+                rects.extend(info.rects)
+                for ch in info.children:
+                    if ch not in seen:
+                        seen.add(ch)
+                        todo.append(ch)
+            self._native_rects[key] = rects
+        return rects
