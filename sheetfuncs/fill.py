@@ -235,6 +235,8 @@ def _writes(outcomes):
                     f"${_col(a.c1 + width - 1)}${a.r1 + len(rows) - 1}")
         else:
             writes.append(CellWrite(o.sheet, o.ref, _cache_value(value)))
+            if _is_error(value):
+                errors.append((where, value))
     return writes, names, spilled, errors
 
 
