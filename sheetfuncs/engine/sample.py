@@ -109,7 +109,7 @@ def sample_result(result, grid: np.ndarray) -> Samples:
     if result.f_t is None:
         inv = result.numerical
         inv.verify(grid)
-        y = np.array([inv.value(float(t)) for t in grid])
+        y = inv.values(grid)
         return Samples(grid, y, (), True, result.method)
     _require_numbers(result.f_t)
     y = evaluate(result, grid)
