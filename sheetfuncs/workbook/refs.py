@@ -10,6 +10,8 @@ Nothing here evaluates; ordering and computing live in ``plan.py``.  Errors are
 """
 from __future__ import annotations
 
+from bisect import bisect_left, bisect_right
+
 import datetime as _dt
 import os
 import re
@@ -739,8 +741,13 @@ class Reach:
             fpos = {(r, c) for r in range(r1, r2 + 1) for c in range(c1, c2 + 1)
                     if type(grid.get((r, c))) is Formula}
         natives = tuple((sheet, r, c) for r, c in sorted(fpos) if (sheet, r, c) not in self.anchors)
-        mine = self._mine.get(sheet, [])
-        hard = frozenset(i for i, r, c in mine if r1 <= r <= r2 and c1 <= c <= c2)
+        cols = self._mine_by_col(sheet)
+        hard_ids: list[int] = []
+        for c in range(c1, c2 + 1) if c2 - c1 < len(cols) else [c for c in cols if c1 <= c <= c2]:
+            if c in cols:
+                rows, ids = cols[c]
+                hard_ids.extend(ids[bisect_left(rows, r1):bisect_right(rows, r2)])
+        hard = frozenset(hard_ids)
         # low[c - c1]: lowest row, in columns >= c, of a cell a spill may cover (not a formula)
         low = [0] * (c2 - c1 + 2)
         for c in range(c2, c1 - 1, -1):
@@ -748,10 +755,25 @@ class Reach:
             while r >= r1 and (r, c) in fpos:
                 r -= 1
             low[c - c1] = max(r if r >= r1 else 0, low[c - c1 + 1])
-        soft = frozenset(i for i, r, c in mine if c <= c2 and low[max(c, c1) - c1] >= r)
+        soft_ids: list[int] = []
+        for c, (rows, ids) in cols.items():
+            if c <= c2:
+                soft_ids.extend(ids[:bisect_right(rows, low[max(c, c1) - c1])])
+        soft = frozenset(soft_ids)
         info = (hard, soft, natives)
         self._rects[rect] = info
         return info
+
+    def _mine_by_col(self, sheet: str) -> dict[int, tuple[list[int], list[int]]]:
+        """Our anchors on ``sheet`` by column: (sorted rows, ids in the same order)."""
+        cache = self.__dict__.setdefault("_by_col", {})
+        if sheet not in cache:
+            by: dict[int, list[tuple[int, int]]] = {}
+            for i, r, c in self._mine.get(sheet, []):
+                by.setdefault(c, []).append((r, i))
+            cache[sheet] = {c: ([r for r, _ in v], [i for _, i in v])
+                            for c, v in ((c, sorted(v)) for c, v in by.items())}
+        return cache[sheet]
 
     def _native(self, key: Key) -> _NativeInfo:
         info = self._natives.get(key)
