@@ -390,10 +390,19 @@ def figures_block(expr, input=None, params=None, band=None):
 
 
 def _ode(coeffs, initial, input_s, params):
-    return api.solve_ode(_vector(coeffs, "coefficients"),
-                         [] if initial is None else [c for row in _rows(initial) for c in row
-                                                      if c is not None and not (isinstance(c, str) and not c.strip())],
-                         _input(input_s), params_of(params))
+    a = tuple(_vector(coeffs, "coefficients"))
+    y0 = () if initial is None else tuple(c for row in _rows(initial) for c in row
+                                          if c is not None and not (isinstance(c, str) and not c.strip()))
+    p = params_of(params)
+    key = tuple(sorted((k, v if isinstance(v, (int, float, str)) else repr(v)) for k, v in p.items()))
+    if not cache.enabled():
+        return _ode_solution.__wrapped__(a, y0, _input(input_s), key)
+    return _ode_solution(a, y0, _input(input_s), key)
+
+
+@functools.lru_cache(maxsize=256)
+def _ode_solution(coeffs, initial, input_s, params_key):
+    return api.solve_ode(list(coeffs), list(initial), input_s, dict(params_key))
 
 
 ODE_PARTS = {"y": "y", "y(t)": "y", "y(s)": "Y", "free": "free", "forced": "forced"}

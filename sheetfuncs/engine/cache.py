@@ -77,8 +77,20 @@ def default_cache_dir() -> Path:
     return Path(os.environ.get("XDG_CACHE_HOME", Path.home() / ".cache")) / "sheetfuncs"
 
 
+@functools.lru_cache(maxsize=1)
+def code_stamp() -> str:
+    """Hash of the package's own source, so results computed by other code
+    (an upgrade, a developer's edit) are never served from the store."""
+    root = Path(__file__).resolve().parent.parent
+    h = hashlib.sha256(__version__.encode())
+    for path in sorted(root.rglob("*.py")):
+        h.update(path.relative_to(root).as_posix().encode())
+        h.update(path.read_bytes())
+    return h.hexdigest()[:16]
+
+
 def make_key(*parts) -> str:
-    text = json.dumps([__version__, *parts], sort_keys=True, default=repr, separators=(",", ":"))
+    text = json.dumps([code_stamp(), *parts], sort_keys=True, default=repr, separators=(",", ":"))
     return hashlib.sha256(text.encode()).hexdigest()
 
 

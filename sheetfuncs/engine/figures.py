@@ -118,7 +118,7 @@ def figures(expr, params: Mapping | None = None, *, input="step", settle: float 
     if not 0 <= lo < hi <= 1:
         raise UnsupportedExpressionError(f"rise band {rise} must satisfy 0 <= low < high <= 1")
     F = to_s_expr(expr, params)
-    U = input_transform(input)
+    U = input_transform(input, params)
     label = input if isinstance(input, str) and input in ("impulse", "step", "ramp") else "given"
     with limits.deadline(timeout):
         sys_res = invert_expr(F, numeric=False)

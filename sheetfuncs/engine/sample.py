@@ -46,7 +46,7 @@ class Samples:
                 "method": self.method}
 
 
-def input_transform(kind) -> sp.Expr:
+def input_transform(kind, params: Mapping | None = None) -> sp.Expr:
     """U(s) for a named input, or the given expression in s."""
     if kind is None:
         return sp.S.One
@@ -58,14 +58,14 @@ def input_transform(kind) -> sp.Expr:
             return 1 / S
         if key == "ramp":
             return 1 / S ** 2
-        return to_s_expr(kind)
-    return to_s_expr(kind)
+        return to_s_expr(kind, params)
+    return to_s_expr(kind, params)
 
 
 def response_expr(expr, params=None, input="impulse") -> sp.Expr:
     """Y(s) = F(s) * U(s)."""
     F = to_s_expr(expr, params)
-    U = input_transform(input)
+    U = input_transform(input, params)
     return F * U
 
 

@@ -1,7 +1,9 @@
 """Caches: the in-process memo and the SQLite store (real sqlite3, two
 processes writing at once)."""
-import json
+import os
 import subprocess
+
+import pytest
 import sys
 
 import sheetfuncs as sf
@@ -19,6 +21,11 @@ def test_cache_off(monkeypatch):
     assert sf.invert("1/(s+8)") is not sf.invert("1/(s+8)")
 
 
+@pytest.fixture(autouse=True)
+def cache_on(monkeypatch):
+    monkeypatch.setenv("SHEETFUNCS_CACHE", "on")
+
+
 def test_store_roundtrip(tmp_path):
     store = cache.ResultStore(tmp_path / "c.sqlite3")
     key = cache.make_key("invert", "1/(s+1)", {})
@@ -33,7 +40,8 @@ def test_store_two_writers_at_once(tmp_path):
     code = ("import sys; from sheetfuncs.engine.cache import ResultStore\n"
             "st = ResultStore(sys.argv[1]); w = sys.argv[2]\n"
             "for i in range(200): st.put_many({f'{w}{i}': [i]})\n")
-    procs = [subprocess.Popen([sys.executable, "-c", code, str(db), w]) for w in "ab"]
+    env = dict(os.environ, SHEETFUNCS_CACHE="on")
+    procs = [subprocess.Popen([sys.executable, "-c", code, str(db), w], env=env) for w in "ab"]
     assert all(p.wait(timeout=120) == 0 for p in procs)
     store = cache.ResultStore(db)
     got = store.get_many([f"{w}{i}" for w in "ab" for i in range(200)])
