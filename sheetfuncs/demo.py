@@ -28,6 +28,10 @@ class DemoResult:
             lines.append(f"  {b['title']}")
             width = max((len(f[0]) for f in b["figures"]), default=0)
             for label, value, unit in b["figures"]:
+                if value is None:
+                    lines.append(f"    {label.ljust(width)} : (a native formula: the spreadsheet "
+                                 f"computes it on opening)")
+                    continue
                 shown = f"{value:.6g}" if isinstance(value, (int, float)) else str(value)
                 lines.append(f"    {label.ljust(width)} : {shown} {unit}".rstrip())
             lines.append("")

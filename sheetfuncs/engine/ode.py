@@ -99,8 +99,20 @@ def ode_transform(coeffs: Sequence, initial: Sequence = (), input=None,
     forced = U / A
     Y = free + forced
     if not Y.has(sp.exp):
-        Y = sp.cancel(sp.together(Y))
-    return Y, free, forced
+        Y = _monic(Y)
+    return Y, _monic(free), forced
+
+
+def _monic(R: sp.Expr) -> sp.Expr:
+    """A rational function with a monic denominator (1/(s^2 + 0.4s + 25), not 2/(2s^2 + ...))."""
+    n, d = sp.fraction(sp.cancel(sp.together(R)))
+    try:
+        lc = sp.Poly(d, S).LC()
+    except sp.PolynomialError:
+        return R
+    if lc == 0:
+        return R
+    return sp.expand(n / lc) / sp.expand(d / lc)
 
 
 def solve_ode(coeffs, initial=(), input=None, params=None, *, input_t=None,
