@@ -209,22 +209,16 @@ def _response_functions(resp):
         f = f.replace(lambda e: isinstance(e, sp.DiracDelta), lambda e: sp.S.Zero)
         fns.append((float(piece.delay), numpy_function(f), numpy_function(sp.diff(f, T))))
 
-    def y(t):
-        t = np.atleast_1d(np.asarray(t, dtype=float))
-        out = np.zeros_like(t)
-        for d, f, _ in fns:
-            m = t >= d
-            out[m] += f(t[m] - d)
-        return out
-
-    def dy(t):
-        t = np.atleast_1d(np.asarray(t, dtype=float))
-        out = np.zeros_like(t)
-        for d, _, g in fns:
-            m = t >= d
-            out[m] += g(t[m] - d)
-        return out
-    return y, dy, max(d for d, _, _ in fns)
+    def summed(which):
+        def fn(t):
+            t = np.atleast_1d(np.asarray(t, dtype=float))
+            out = np.zeros_like(t)
+            for piece in fns:
+                m = t >= piece[0]
+                out[m] += piece[which](t[m] - piece[0])
+            return out
+        return fn
+    return summed(1), summed(2), max(d for d, _, _ in fns)
 
 
 def _step_figures(resp, sys_poles, final, settle, lo, hi) -> dict:

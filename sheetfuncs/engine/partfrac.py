@@ -16,6 +16,7 @@ reaches the time function.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from fractions import Fraction
 from math import comb, factorial
 
 import mpmath
@@ -189,7 +190,81 @@ def _quadratic_sign(f):
     return None
 
 
+class _Surd:
+    """``p + q*w`` with ``w = sqrt(W)``; p, q, W exact fractions (fast exact arithmetic
+    for quadratic factors with rational coefficients)."""
+    __slots__ = ("p", "q", "W")
+
+    def __init__(self, p, q, W):
+        self.p, self.q, self.W = p, q, W
+
+    def _c(self, o):
+        return o if isinstance(o, _Surd) else _Surd(Fraction(o), Fraction(0), self.W)
+
+    def __add__(self, o):
+        o = self._c(o)
+        return _Surd(self.p + o.p, self.q + o.q, self.W)
+
+    __radd__ = __add__
+
+    def __mul__(self, o):
+        o = self._c(o)
+        return _Surd(self.p * o.p + self.q * o.q * self.W, self.p * o.q + self.q * o.p, self.W)
+
+    __rmul__ = __mul__
+
+    def __neg__(self):
+        return _Surd(-self.p, -self.q, self.W)
+
+    def expr(self, omega):
+        return sp.Rational(self.p.numerator, self.p.denominator) + \
+            sp.Rational(self.q.numerator, self.q.denominator) * omega
+
+
+def _fraction(x) -> Fraction:
+    r = sp.Rational(x)
+    return Fraction(int(r.p), int(r.q))
+
+
+def _quadratic_terms_rational(f, groups):
+    """_quadratic_terms for rational coefficients, in exact surd arithmetic."""
+    _, b, c = [_fraction(f.domain.to_sympy(x)) for x in f.all_coeffs()]
+    alpha = -b / 2
+    disc = b * b / 4 - c
+    sigma = -1 if disc < 0 else 1
+    W = -disc if sigma == -1 else disc
+    omega = sp.sqrt(sp.Rational(W.numerator, W.denominator))
+    one = _Surd(Fraction(0), Fraction(1), W)                # omega itself
+    pair = PolePair(sp.Rational(alpha.numerator, alpha.denominator), omega, sigma)
+    out = []
+    for k, r in groups:
+        if r.is_zero:
+            continue
+        coeffs = r.all_coeffs()
+        A = _fraction(r.domain.to_sympy(coeffs[-2])) if len(coeffs) == 2 else Fraction(0)
+        B = _fraction(r.domain.to_sympy(coeffs[-1]))
+        apb = (_Surd(A * alpha + B, Fraction(0), W), A * one)
+        b_prev = None
+        for n in range(k):
+            m = k + n
+            scale = Fraction(_binom_neg(k, n), 2 ** m)
+            mag = _Surd(scale / W ** (m // 2), Fraction(0), W) if m % 2 == 0 else \
+                _Surd(Fraction(0), scale / W ** ((m + 1) // 2), W)      # (2 omega)^-m * binom
+            jr = m % 4 if sigma == -1 else m % 2
+            zero = _Surd(Fraction(0), Fraction(0), W)
+            bn = [(mag, zero), (zero, -mag), (-mag, zero), (zero, mag)][jr] if sigma == -1 \
+                else [(mag, zero), (zero, mag)][jr]
+            x, y = _pair_mul(apb, bn, sigma)
+            if b_prev is not None:
+                x, y = x + A * b_prev[0], y + A * b_prev[1]
+            out.append(PairTerm(pair, k - n, x.expr(omega), y.expr(omega)))
+            b_prev = bn
+    return out
+
+
 def _quadratic_terms(f, groups):
+    if f.domain.is_QQ or f.domain.is_ZZ:
+        return _quadratic_terms_rational(f, groups)
     _, b, c = [f.domain.to_sympy(x) for x in f.all_coeffs()]
     alpha = -b / 2
     disc = sp.cancel(b * b / 4 - c)

@@ -44,7 +44,7 @@ def split_delays(F: sp.Expr) -> list[Piece] | None:
     gens = [S] + zs
     if not G.is_rational_function(*gens):
         return None
-    num, den = sp.fraction(sp.together(G))
+    num, den = G.as_numer_denom()
     if den.has(*zs) if zs else False:
         return None
     if not zs:

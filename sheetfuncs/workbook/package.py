@@ -43,6 +43,7 @@ from typing import Iterable
 from lxml import etree
 
 from ..errors import WorkbookError
+from .refs import column_letters as _col_letters
 
 __all__ = ["CellWrite", "Package", "read_package", "write_results", "defined_names", "NONFINITE_TEXT"]
 
@@ -256,14 +257,6 @@ def _parse_ref(ref) -> tuple[int, int]:
     if not (1 <= row <= MAX_ROW and 1 <= col <= MAX_COL):
         raise ValueError(f"'{ref}' is outside the sheet")
     return row, col
-
-
-def _col_letters(col: int) -> str:
-    out = ""
-    while col:
-        col, rem = divmod(col - 1, 26)
-        out = chr(65 + rem) + out
-    return out
 
 
 def _ref(row: int, col: int) -> str:
