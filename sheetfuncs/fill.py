@@ -191,7 +191,7 @@ def fill_workbook(src, dst=None, *, in_place: bool = False, functions: Mapping |
     funcs = _CachedFunctions(functions or cellfuncs.FUNCTIONS, store, names)
     with cellfuncs.name_values(names):
         outcomes = _plan.evaluate(book, funcs.mapping(), prefix=cellfuncs.PREFIX,
-                                  error_text=cellfuncs.error_text)
+                                  error_text=cellfuncs.error_text, strict=True)
     funcs.flush()
     writes, spill_names, spilled, errors = _writes(outcomes)
     cleared = _clear_stale(pkg, book, writes, outcomes)

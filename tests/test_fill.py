@@ -223,3 +223,14 @@ def test_cli_fill_json_and_folder(tmp_path, capsys):
     assert (tmp_path / "out" / "a.xlsx").exists()
     code = main(["fill", str(tmp_path / "a.xlsx"), "-o", str(tmp_path / "a2.xlsx")])
     assert code == 0 and "cells" in capsys.readouterr().out
+
+
+def test_unreadable_formula_writes_nothing(tmp_path):
+    src = build_user_book(tmp_path / "u.xlsx")
+    wb = openpyxl.load_workbook(src)
+    wb["Design"]["B11"] = "=SF_INVERSE((B2)"          # the tokenizer cannot read it
+    wb.save(src)
+    with pytest.raises(WorkbookError) as info:
+        fill_workbook(src, tmp_path / "u_out.xlsx", use_cache=False)
+    assert "u.xlsx" in str(info.value) and "B11" in str(info.value)
+    assert not (tmp_path / "u_out.xlsx").exists()

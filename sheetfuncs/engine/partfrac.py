@@ -8,6 +8,11 @@ real-form groups ``a_k(s) / f^k``.  Linear and quadratic factors then give
 exact complex terms ``c / (s - p)^k``; factors of degree three and more (no
 clean radicals) get polished numeric roots and numeric residues.
 
+No clustering of near-equal numeric roots is needed: decimals are read as
+exact rationals, so a repeated pole is an exact repeated factor, and the
+roots of one irreducible factor are distinct (residues are computed at 40
+digits, so even close roots keep their accuracy).
+
 Complex-conjugate (or irrational real) pole pairs ``alpha +- j*omega`` are
 handled with a small pair arithmetic over ``x + j*y`` where ``j^2 = sigma``
 (-1 for complex pairs, +1 for irrational real pairs), so no imaginary unit
@@ -28,8 +33,6 @@ from ..errors import ParameterError, UnsupportedExpressionError
 
 #: working precision (decimal digits) for numeric roots and residues
 NUMERIC_DPS = 40
-#: roots of one irreducible factor closer than this (relative) are merged
-CLUSTER_TOL = 1e-7
 
 
 @dataclass(frozen=True)

@@ -109,6 +109,13 @@ _FAILED = object()
 # public API
 # --------------------------------------------------------------------------
 
+def _refuse_unreadable(book: Any, items: list) -> None:
+    bad = [it for it in items if it.problem]
+    if bad:
+        more = f" ({len(bad) - 1} more cells cannot be read)" if len(bad) > 1 else ""
+        raise WorkbookError(f"{bad[0].problem}{more}", file=book.label, cell=bad[0].label)
+
+
 def scan(book_or_path: Any, *, prefix: str = "SF_") -> list[Job]:
     """Cells calling our functions, sheet by sheet, row by row (anchors of array formulas).
 
@@ -118,15 +125,12 @@ def scan(book_or_path: Any, *, prefix: str = "SF_") -> list[Job]:
     """
     book = _r.open_book(book_or_path)
     items = _collect(book, prefix)
-    bad = [it for it in items if it.problem]
-    if bad:
-        more = f" ({len(bad) - 1} more cells cannot be read)" if len(bad) > 1 else ""
-        raise WorkbookError(f"{bad[0].problem}{more}", file=book.label, cell=bad[0].label)
+    _refuse_unreadable(book, items)
     return [Job(it.sheet, it.ref, it.formula, it.function, it.arg_refs) for it in items]
 
 
 def evaluate(book_or_path: Any, functions: Mapping[str, Callable[..., Any]], *, prefix: str = "SF_",
-             error_text: Callable[[Exception], str]) -> list[Outcome]:
+             error_text: Callable[[Exception], str], strict: bool = False) -> list[Outcome]:
     """Compute every cell ``scan`` finds (in the same order); one bad cell never stops the run.
 
     ``book_or_path``: a path, an openpyxl Workbook (then there are no cached
@@ -134,10 +138,13 @@ def evaluate(book_or_path: Any, functions: Mapping[str, Callable[..., Any]], *, 
     upper-case names to callables taking the resolved arguments positionally.
     Any exception a callable raises, and every problem found here, becomes that
     cell's ``error`` through ``error_text``.  Raises ``WorkbookError`` only when
-    the file itself cannot be read.
+    the file itself cannot be read, or (``strict``) when one of our formulas cannot.
     """
     book = _r.open_book(book_or_path)
-    run = _Run(book, _collect(book, prefix), functions)
+    items = _collect(book, prefix)
+    if strict:                  # one of our formulas cannot be read: refuse the whole book
+        _refuse_unreadable(book, items)
+    run = _Run(book, items, functions)
     run.run()
     out = []
     for i, it in enumerate(run.items):
