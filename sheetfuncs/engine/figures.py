@@ -120,6 +120,8 @@ def figures(expr, params: Mapping | None = None, *, input="step", settle: float 
     F = to_s_expr(expr, params)
     U = input_transform(input, params)
     label = input if isinstance(input, str) and input in ("impulse", "step", "ramp") else "given"
+    if label == "given" and not (U * S).has(S) and U != 0:
+        label = "step"                  # a scaled step such as 5/s: step figures apply
     with limits.deadline(timeout):
         sys_res = invert_expr(F, numeric=False)
         resp = invert_expr(F * U, numeric=False)

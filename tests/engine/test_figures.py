@@ -80,3 +80,12 @@ def test_bad_bands():
         sf.figures("1/(s+1)", settle=2)
     with pytest.raises(sf.SheetfuncsError):
         sf.figures("1/(s+1)", rise=(0.9, 0.1))
+
+
+def test_scaled_step_input_gets_step_figures():
+    # a 5 V step typed as U(s) = V/s: same times and overshoot, final value scaled
+    a = sf.figures("4/(s^2+1.2s+4)")
+    b = sf.figures("4/(s^2+1.2s+4)", {"V": 5}, input="V/s")
+    assert b.input == "step" and b.final_value == pytest.approx(5.0)
+    assert b.overshoot_percent == pytest.approx(a.overshoot_percent, rel=1e-12)
+    assert b.settling_time == pytest.approx(a.settling_time, rel=1e-12)
