@@ -67,3 +67,10 @@ def test_corpus_covers_the_brief():
         delays += F.has(sp.exp)
     assert {1, 2, 3, 4, 5, 6, 7, 8} <= orders
     assert delays >= 1
+
+
+def test_sampling_benchmark_runs(capsys):
+    from sheetfuncs import samplebench
+    assert samplebench.main([]) == 0
+    out = capsys.readouterr().out
+    assert "engine ms" in out and len(out.strip().splitlines()) == 1 + len(samplebench.CASES)
