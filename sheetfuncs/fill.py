@@ -29,7 +29,7 @@ from .workbook import plan as _plan
 from .workbook import refs as _refs
 from .workbook.package import CellWrite, defined_names, read_package, write_results
 
-SPILL_NAME_PREFIX = "_sfspill"
+SPILL_NAME_PREFIX = _refs.SPILL_NAME_PREFIX
 EMPTY_TEXT = " "          # LibreOffice recomputes a formula cached as "" (shows #NAME?)
 SUFFIXES = (".xlsx", ".xlsm")
 
