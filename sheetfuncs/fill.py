@@ -193,7 +193,7 @@ def fill_workbook(src, dst=None, *, in_place: bool = False, functions: Mapping |
         outcomes = _plan.evaluate(book, funcs.mapping(), prefix=cellfuncs.PREFIX,
                                   error_text=cellfuncs.error_text, strict=True)
     funcs.flush()
-    writes, spill_names, spilled, errors = _writes(outcomes)
+    writes, spill_names, spilled, errors = _writes(outcomes, book)
     cleared = _clear_stale(pkg, book, writes, outcomes)
     backup = None
     if in_place:
@@ -210,19 +210,31 @@ def _cache_value(v):
     return v
 
 
-def _writes(outcomes):
+def _own_formula(book, sheet, ref):
+    """The anchor's formula text (openpyxl expands shared formulas per cell)."""
+    try:
+        r = _refs.parse_reference(ref, sheet)
+        cell = book.cells[book.sheet(sheet)].get((r.r1, r.c1))
+    except Exception:  # noqa: BLE001 - no text: the shared form is then kept
+        return None
+    return cell.text if isinstance(cell, _refs.Formula) else None
+
+
+def _writes(outcomes, book=None):
     writes, names, errors = [], {}, []
     spilled = 0
     for o in outcomes:
         where = f"{_quote(o.sheet)}{o.ref}"
+        own = _own_formula(book, o.sheet, o.ref) if book is not None else None
         if o.error is not None:
-            writes.append(CellWrite(o.sheet, o.ref, o.error))
+            writes.append(CellWrite(o.sheet, o.ref, o.error, own_formula=own))
             errors.append((where, o.error))
             continue
         value = o.value
         if isinstance(value, list):
             rows = value or [[""]]
-            writes.append(CellWrite(o.sheet, o.ref, _cache_value(rows[0][0] if rows[0] else "")))
+            writes.append(CellWrite(o.sheet, o.ref, _cache_value(rows[0][0] if rows[0] else ""),
+                                    own_formula=own))
             targets = _plan.spill_targets(o)
             for sheet, ref, v in targets:
                 writes.append(CellWrite(sheet, ref, None if v in ("", None) else v, constant=True))
@@ -234,7 +246,7 @@ def _writes(outcomes):
                     f"{_quote(o.sheet)}${_col(a.c1)}${a.r1}:"
                     f"${_col(a.c1 + width - 1)}${a.r1 + len(rows) - 1}")
         else:
-            writes.append(CellWrite(o.sheet, o.ref, _cache_value(value)))
+            writes.append(CellWrite(o.sheet, o.ref, _cache_value(value), own_formula=own))
             if _is_error(value):
                 errors.append((where, value))
     return writes, names, spilled, errors

@@ -234,3 +234,47 @@ def test_unreadable_formula_writes_nothing(tmp_path):
         fill_workbook(src, tmp_path / "u_out.xlsx", use_cache=False)
     assert "u.xlsx" in str(info.value) and "B11" in str(info.value)
     assert not (tmp_path / "u_out.xlsx").exists()
+
+
+def _make_shared(path: Path, out: Path, sheet_member: str, first: int, last: int, col: str = "B"):
+    """Rewrite a column of formulas as one shared formula group, as Excel saves a filled-down column."""
+    with zipfile.ZipFile(path) as zin:
+        root = etree.fromstring(zin.read(sheet_member))
+        ns = {"m": root.nsmap[None]}
+        for r in range(first, last + 1):
+            c = root.find(f".//m:c[@r='{col}{r}']", ns)
+            f = c.find("m:f", ns)
+            f.set("t", "shared")
+            f.set("si", "0")
+            if r == first:
+                f.set("ref", f"{col}{first}:{col}{last}")
+            else:
+                f.text = None
+        data = etree.tostring(root, xml_declaration=True, encoding="UTF-8", standalone=True)
+        with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as zout:
+            for info in zin.infolist():
+                zout.writestr(info, data if info.filename == sheet_member else zin.read(info.filename))
+    return out
+
+
+def test_shared_formula_column_is_unshared_and_reads_in_libreoffice(tmp_path):
+    src = build_user_book(tmp_path / "plain.xlsx")
+    shared = _make_shared(src, tmp_path / "shared.xlsx", "xl/worksheets/sheet2.xml", 2, N + 1)
+    assert openpyxl.load_workbook(shared)["Data"]["B5"].value == '=SF_RESPONSE(Design!$B$2,A5,"step")'
+    fill_workbook(shared, tmp_path / "shared_out.xlsx", use_cache=False)
+    xml = zipfile.ZipFile(tmp_path / "shared_out.xlsx").read("xl/worksheets/sheet2.xml")
+    assert b't="shared"' not in xml
+    lo.require_soffice()
+    rows = lo.to_csv_all_sheets(tmp_path / "shared_out.xlsx", tmp_path)["Data"]
+    y = [float(r[1]) for r in rows[1:N + 1]]
+    assert np.allclose(y, sf.sample("4/(s^2+1.2s+4)", TIMES, input="step").y, rtol=1e-12, atol=1e-14)
+
+
+def test_partly_unshared_group_is_refused(tmp_path):
+    from sheetfuncs.workbook.package import CellWrite, write_results
+    src = build_user_book(tmp_path / "plain.xlsx")
+    shared = _make_shared(src, tmp_path / "shared.xlsx", "xl/worksheets/sheet2.xml", 2, 5)
+    with pytest.raises(WorkbookError, match="shared formula group"):
+        write_results(shared, tmp_path / "bad.xlsx",
+                      [CellWrite("Data", "B2", 1.0, own_formula='SF_RESPONSE(Design!$B$2,A2,"step")')])
+    assert not (tmp_path / "bad.xlsx").exists()

@@ -17,7 +17,9 @@ recalculates an OOXML file on load, shows them):
 
 Known limits (measured with LibreOffice 7.4): it recomputes array, shared and
 volatile formulas and any cell cached as an error, boolean or empty text, so
-such cells show #NAME? for our functions there whatever is cached.
+such cells show #NAME? for our functions there whatever is cached.  A cell of
+a shared group is therefore rewritten as a plain formula when its own formula
+text is given (``CellWrite.own_formula``); a group must be rewritten whole.
 
 calcChain.xml is kept: it lists formula cells, and we never turn a formula
 cell into a constant (that is refused), so every entry stays valid; a formula
@@ -77,6 +79,10 @@ class CellWrite:
     value: float | int | str | bool | None
     formula: str | None = None
     constant: bool = False
+    #: the cell's own formula text; when the cell belongs to a shared formula group
+    #: (as Excel saves filled-down columns) it is rewritten as this plain formula,
+    #: because LibreOffice recomputes shared formulas and would show #NAME? for ours
+    own_formula: str | None = None
 
 
 # ---------------------------------------------------------------- reading
@@ -448,6 +454,7 @@ def _serialize(root) -> bytes:
 
 def _patch_sheet(pkg: Package, member: str, sheet: str, writes: list, counts: dict) -> bytes:
     sh = _Sheet(pkg.xml(member), pkg.file, member, sheet)
+    unshared: set = set()
     for w, row, col in writes:
         where = f"'{sheet}'!{_ref(row, col)}"
         try:
@@ -480,14 +487,42 @@ def _patch_sheet(pkg: Package, member: str, sheet: str, writes: list, counts: di
             if f is None:
                 raise WorkbookError("cell has no formula to cache a value for",
                                     file=pkg.file, cell=where)
+            if f.get("t") == "shared" and w.own_formula:
+                text = w.own_formula[1:] if w.own_formula.startswith("=") else w.own_formula
+                if not text.strip() or _BAD_XML_CHARS.search(text):
+                    raise WorkbookError("empty or unprintable formula", file=pkg.file, cell=where)
+                unshared.add(f.get("si"))
+                plain = etree.Element(sh.q("f"))
+                plain.text = text
+                c.replace(f, plain)
+                counts["unshared"] = counts.get("unshared", 0) + 1
             sh.set_value(c, w.value, as_constant=False)
             counts["cached_values"] += 1
         if kind == "s" and isinstance(w.value, float):
             counts["nonfinite"] += 1
+    _check_shared_groups(sh, unshared, pkg.file)
     sh.update_dimension()
     counts["cells_created"] += len(sh.created)
     counts["rows_created"] += sh.rows_created
     return _serialize(sh.root)
+
+
+def _check_shared_groups(sh, unshared: set, file: str) -> None:
+    """A shared group whose master was rewritten must have no member left behind."""
+    if not unshared:
+        return
+    masters, members = set(), {}
+    for f in sh.root.iter(sh.q("f")):
+        if f.get("t") == "shared":
+            si = f.get("si")
+            members.setdefault(si, f)
+            if (f.text or "").strip() or f.get("ref"):
+                masters.add(si)
+    for si in unshared:
+        if si in members and si not in masters:
+            c = members[si].getparent()
+            raise WorkbookError("part of a shared formula group would lose its master formula",
+                                file=file, cell=f"'{sh.sheet}'!{c.get('r') or '?'}")
 
 
 def _patch_calc(pkg: Package, calc_off: bool = True, names: dict | None = None,
