@@ -189,11 +189,15 @@ def fill_workbook(src, dst=None, *, in_place: bool = False, functions: Mapping |
     else:
         store = None
     funcs = _CachedFunctions(functions or cellfuncs.FUNCTIONS, store, names)
+    natives: dict = {}
     with cellfuncs.name_values(names):
         outcomes = _plan.evaluate(book, funcs.mapping(), prefix=cellfuncs.PREFIX,
-                                  error_text=cellfuncs.error_text, strict=True)
+                                  error_text=cellfuncs.error_text, strict=True, natives=natives)
     funcs.flush()
     writes, spill_names, spilled, errors = _writes(outcomes, book)
+    taken = {(w.sheet, w.ref) for w in writes}
+    # native formulas get their values cached too, so data-only readers see them
+    writes += [CellWrite(sh, ref, v) for (sh, ref), v in natives.items() if (sh, ref) not in taken]
     cleared = _clear_stale(pkg, book, writes, outcomes)
     backup = None
     if in_place:

@@ -278,3 +278,14 @@ def test_partly_unshared_group_is_refused(tmp_path):
         write_results(shared, tmp_path / "bad.xlsx",
                       [CellWrite("Data", "B2", 1.0, own_formula='SF_RESPONSE(Design!$B$2,A2,"step")')])
     assert not (tmp_path / "bad.xlsx").exists()
+
+
+def test_native_formulas_get_cached_values_for_data_only_readers(filled):
+    # a data-only reader (openpyxl data_only, like pandas) sees native results as well as ours
+    _, out, _ = filled
+    wb = openpyxl.load_workbook(out, data_only=True)
+    design, data = wb["Design"], wb["Data"]
+    assert design["B7"].value == pytest.approx(2 * design["B5"].value)       # =B5*2 over our cell
+    assert design["B8"].value is None      # =SUM(...) is beyond the small evaluator: left to the spreadsheet
+    for i in (2, 10, N + 1):
+        assert data[f"C{i}"].value == pytest.approx(2 * data[f"B{i}"].value)

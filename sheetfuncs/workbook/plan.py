@@ -86,7 +86,8 @@ def scan(book_or_path: Any, *, prefix: str = "SF_") -> list[Job]:
 
 
 def evaluate(book_or_path: Any, functions: Mapping[str, Callable[..., Any]], *, prefix: str = "SF_",
-             error_text: Callable[[Exception], str], strict: bool = False) -> list[Outcome]:
+             error_text: Callable[[Exception], str], strict: bool = False,
+             natives: dict | None = None) -> list[Outcome]:
     """Compute every cell ``scan`` finds (in the same order); one bad cell never stops the run.
 
     ``book_or_path``: a path, an openpyxl Workbook (then there are no cached
@@ -95,6 +96,11 @@ def evaluate(book_or_path: Any, functions: Mapping[str, Callable[..., Any]], *, 
     Any exception a callable raises, and every problem found here, becomes that
     cell's ``error`` through ``error_text``.  Raises ``WorkbookError`` only when
     the file itself cannot be read, or (``strict``) when one of our formulas cannot.
+
+    ``natives``: a dict to receive ``(sheet, ref) -> value`` for the cells
+    holding native formulas that the small evaluator can compute (numbers and
+    text; after our results, so formulas over them are current).  The others
+    are left out.
     """
     book = _r.open_book(book_or_path)
     items = _collect(book, prefix)
@@ -113,6 +119,26 @@ def evaluate(book_or_path: Any, functions: Mapping[str, Callable[..., Any]], *, 
             out.append(Outcome(it.sheet, it.ref, run.results[i], None))
         else:                                                   # pragma: no cover - defensive
             out.append(Outcome(it.sheet, it.ref, None, error_text(WorkbookError("not computed"))))
+    if natives is not None:
+        natives.update(_native_values(run, book))
+    return out
+
+
+def _native_values(run: _Run, book: _r.Book) -> dict:
+    out = {}
+    run.job_memo.clear()
+    run.current = None
+    for sheet in book.sheets:
+        for pos, cell in book.cells[sheet].items():
+            if type(cell) is not Formula or (sheet, pos[0], pos[1]) in run.anchor or cell.text is None:
+                continue
+            try:
+                value = run._native((sheet, pos[0], pos[1]))
+            except Exception:  # noqa: BLE001 - not computable here: left to the spreadsheet
+                continue
+            if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+                continue
+            out[(sheet, f"{_r.column_letters(pos[1])}{pos[0]}")] = value
     return out
 
 
