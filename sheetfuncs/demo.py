@@ -49,15 +49,19 @@ def _new_folder(base: Path) -> Path:
     return candidate
 
 
+def _build_only(tmp: Path) -> dict[str, Path]:
+    from .templates import build_all
+    return {p.stem: p for p in build_all(tmp)}
+
+
 def _template_files(tmp: Path) -> dict[str, Path]:
     """The committed workbooks/ folder when running from a checkout, else freshly built ones."""
-    from .templates import TEMPLATES, build_all
+    from .templates import TEMPLATES
     repo = Path(__file__).resolve().parent.parent / "workbooks"
     names = list(TEMPLATES)
     if all((repo / f"{n}.xlsx").is_file() for n in names):
         return {n: repo / f"{n}.xlsx" for n in names}
-    paths = build_all(tmp)
-    return {p.stem: p for p in paths}
+    return _build_only(tmp)
 
 
 def run_demo(folder: str | None = None) -> DemoResult:
