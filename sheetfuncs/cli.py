@@ -199,8 +199,7 @@ def _run(args):
         res = api.sample(args.expr, times, start=args.start, stop=args.stop, n=args.n,
                          input=args.input, params=params)
         d = res.to_dict()
-        return {"t": d["t"], "y": d["y"], "impulses": d["impulses"], "method": d["method"]} \
-            if args.json else report.samples(res, digits=args.digits or 6)
+        return d if args.json else report.samples(res, digits=args.digits or 6)
     if args.command == "figures":
         rise = _floats(args.rise, "--rise")
         if len(rise) != 2:

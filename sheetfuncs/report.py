@@ -71,7 +71,9 @@ def samples(res, digits=6) -> str:
             f"{_g(i.weight, digits)}*delta{'^(%d)' % i.order if i.order else ''}(t - {_g(i.time, digits)})"
             for i in res.impulses))
     if res.numerical:
-        out.append(f"values by {res.method}")
+        est = f"; Talbot vs de Hoog differ by {res.error_estimate:.1e} (relative)" \
+            if res.error_estimate is not None else ""
+        out.append(f"values by {res.method}{est}")
     return "\n".join(out)
 
 

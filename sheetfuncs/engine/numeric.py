@@ -71,7 +71,7 @@ class NumericInverse:
     expr: sp.Expr
     method: str = "Talbot"
     _parts: tuple = field(default=(), repr=False, compare=False)   # (delay, G, mpmath fn, numpy fn)
-    _verified: set = field(default_factory=set, repr=False, compare=False)
+    _verified: dict = field(default_factory=dict, repr=False, compare=False)   # "worst" -> rel. diff
 
     @classmethod
     def build(cls, F: sp.Expr) -> "NumericInverse":
@@ -126,7 +126,9 @@ class NumericInverse:
         """Largest relative disagreement of the two methods at up to 3 of ``times``;
         raises SamplingError when above ``AGREEMENT``."""
         pts = sorted({float(t) for t in times if t > 0 and all(abs(t - d) > 1e-3 for d, *_ in self._parts)})
-        if not pts or self._verified:
+        if "worst" in self._verified:
+            return self._verified["worst"]
+        if not pts:
             return 0.0
         probe = sorted({pts[0], pts[len(pts) // 2], pts[-1]})
         fast = self.values(np.array(probe))
@@ -139,7 +141,7 @@ class NumericInverse:
                 raise SamplingError(
                     f"numerical inversion is unreliable here (Talbot {a:.6g} vs de Hoog {b:.6g} at "
                     f"t={t:g}); F(s) may have singularities off the negative real axis")
-        self._verified.add(True)
+        self._verified["worst"] = worst
         return worst
 
 
