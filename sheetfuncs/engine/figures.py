@@ -21,6 +21,7 @@ from . import limits
 from .invert import invert_expr, time_function, to_s_expr
 from .results import finite_or_none, pair
 from .sample import input_transform, numpy_function
+from .split import split_delays
 
 GRID = 40_000
 
@@ -123,11 +124,11 @@ def figures(expr, params: Mapping | None = None, *, input="step", settle: float 
     if label == "given" and not (U * S).has(S) and U != 0:
         label = "step"                  # a scaled step such as 5/s: step figures apply
     with limits.deadline(timeout):
+        if split_delays(F) is None or split_delays(F * U) is None:
+            from .figures_numeric import nonrational_figures
+            return Figures(**nonrational_figures(F, U, label, settle, lo, hi))
         sys_res = invert_expr(F, numeric=False)
         resp = invert_expr(F * U, numeric=False)
-    if not sys_res.pieces:
-        raise UnsupportedExpressionError("figures need a rational F(s), possibly with delays",
-                                         "use sampling for non-rational expressions")
     poles = _poles(sys_res)
     stable, stability = _stability(poles)
     zeros = _zeros(sys_res)
@@ -223,17 +224,26 @@ def _response_functions(resp):
     return summed(1), summed(2), max(d for d, _, _ in fns)
 
 
+def _no_step(note="no step figures without a non-zero final value") -> dict:
+    return dict(rise_time=None, peak_time=None, peak_value=None, overshoot_percent=None,
+                settling_time=None, notes=(note,))
+
+
 def _step_figures(resp, sys_poles, final, settle, lo, hi) -> dict:
-    none = dict(rise_time=None, peak_time=None, peak_value=None, overshoot_percent=None,
-                settling_time=None)
     if final is None or final == 0 or not sys_poles:
-        none["notes"] = ("no step figures without a non-zero final value",)
-        return none
+        return _no_step()
     slow = min(-p.real for p, _ in sys_poles)
     kmax = max(m for _, m in sys_poles)
     y, dy, delay = _response_functions(resp)
     horizon = delay + (math.log(1.0 / settle) + 14 + 4 * (kmax - 1)) / slow
-    grid = np.linspace(0.0, horizon, GRID)
+    return time_figures(y, dy, horizon, final, settle, lo, hi)
+
+
+def time_figures(y, dy, horizon, final, settle, lo, hi, points=GRID) -> dict:
+    """Rise, peak, overshoot and settling of y (vectorised) towards ``final``, found by
+    Brent's method bracketed on a grid of ``points`` over [0, horizon]; the peak by the
+    root of ``dy`` when given, else by a bounded scalar minimisation."""
+    grid = np.linspace(0.0, horizon, points)
     z = y(grid) / final
     sy = lambda x: float(y(x)[0]) / final          # noqa: E731
 
@@ -251,20 +261,22 @@ def _step_figures(resp, sys_poles, final, settle, lo, hi) -> dict:
     i_max = int(np.argmax(z))
     peak_time = peak_value = None
     overshoot = 0.0
-    if z[i_max] > 1 + 1e-12 and 0 < i_max < GRID - 1:
-        d = lambda x: float(dy(x)[0]) / final      # noqa: E731
+    if z[i_max] > 1 + 1e-12 and 0 < i_max < points - 1:
         a, b = grid[i_max - 1], grid[i_max + 1]
-        if d(a) > 0 > d(b):
-            peak_time = brentq(d, a, b, xtol=1e-15, rtol=1e-14)
+        if dy is not None:
+            d = lambda x: float(dy(x)[0]) / final      # noqa: E731
+            peak_time = brentq(d, a, b, xtol=1e-15, rtol=1e-14) if d(a) > 0 > d(b) else grid[i_max]
         else:
-            peak_time = grid[i_max]
+            from scipy.optimize import minimize_scalar
+            peak_time = float(minimize_scalar(lambda x: -sy(x), bounds=(a, b), method="bounded",
+                                              options={"xatol": 1e-10 * max(b, 1e-300)}).x)
         peak_value = float(y(peak_time)[0])
         overshoot = 100.0 * (peak_value - final) / abs(final)
     outside = np.nonzero(np.abs(z - 1) > settle)[0]
     settling = None
     if outside.size:
         j = outside[-1]
-        if j < GRID - 1:
+        if j < points - 1:
             side = 1 if z[j] > 1 else -1
             settling = brentq(lambda x: sy(x) - 1 - side * settle, grid[j], grid[j + 1],
                               xtol=1e-15, rtol=1e-14)

@@ -89,3 +89,26 @@ def test_scaled_step_input_gets_step_figures():
     assert b.input == "step" and b.final_value == pytest.approx(5.0)
     assert b.overshoot_percent == pytest.approx(a.overshoot_percent, rel=1e-12)
     assert b.settling_time == pytest.approx(a.settling_time, rel=1e-12)
+
+
+def test_non_rational_step_figures_against_mpmath():
+    # far face of a slab with the near face stepped: 1/cosh(sqrt(s)) (time in units of L^2/alpha).
+    # The times found must put mpmath's own de Hoog inversion of Y(s) = 1/(s cosh(sqrt(s)))
+    # exactly on the 10 %, 90 % and 98 % levels.
+    import mpmath
+    f = sf.figures("1/cosh(sqrt(s))")
+    assert f.final_value == pytest.approx(1.0) and f.stable is None and "not rational" in f.final_value_note
+    Y = lambda p: 1 / (p * mpmath.cosh(mpmath.sqrt(p)))   # noqa: E731
+    for t, level in [(f.settling_time, 0.98)]:
+        assert float(mpmath.invertlaplace(Y, t, method="dehoog")) == pytest.approx(level, abs=1e-8)
+    # rise time = t90 - t10: check both ends via the 90 % crossing found from the 10 % one
+    lo = mpmath.findroot(lambda t: mpmath.invertlaplace(Y, t, method="dehoog") - 0.1, 0.1)
+    hi = mpmath.findroot(lambda t: mpmath.invertlaplace(Y, t, method="dehoog") - 0.9, 1.0)
+    assert f.rise_time == pytest.approx(float(hi - lo), rel=1e-7)
+    assert f.overshoot_percent == 0.0
+
+
+def test_non_rational_limits():
+    # DC gain 1/cosh(0) = 1; impulse response of 1/(s cosh(sqrt s)) tends to 1 (FVT)
+    f = sf.figures("1/(s cosh(sqrt(s)))", input="impulse")
+    assert f.final_value == pytest.approx(1.0) and f.dc_gain is None and f.poles == ()
