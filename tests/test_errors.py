@@ -34,3 +34,12 @@ def test_non_text_inputs(value):
         sf.invert(value)
     except sf.SheetfuncsError:
         pass
+
+
+# found by fuzzing the cell functions: unknown names, improper non-rational F, divergent inversion
+@pytest.mark.parametrize("text", ["a2", "se^2", "(s^2+s+1)(s+1)^7^-1", "1e-3e^exp(-2s)", "1e-3ae*e22"])
+def test_figures_fuzz_cases_give_our_errors_or_values(text):
+    from sheetfuncs import cellfuncs as cf
+    for out in (cf.figures_block(text), cf.poles_table(text), cf.response(text, 1.0)):
+        flat = [v for row in out for v in row] if isinstance(out, list) else [out]
+        assert not any(isinstance(v, str) and "internal error" in v for v in flat), out

@@ -123,6 +123,9 @@ def figures(expr, params: Mapping | None = None, *, input="step", settle: float 
     label = input if isinstance(input, str) and input in ("impulse", "step", "ramp") else "given"
     if label == "given" and not (U * S).has(S) and U != 0:
         label = "step"                  # a scaled step such as 5/s: step figures apply
+    free = sorted(str(x) for x in (F * U).free_symbols if x != S)
+    if free:
+        raise ParameterError(f"figures need values for {', '.join(free)}", free[0])
     with limits.deadline(timeout):
         if split_delays(F) is None or split_delays(F * U) is None:
             from .figures_numeric import nonrational_figures
@@ -245,6 +248,11 @@ def time_figures(y, dy, horizon, final, settle, lo, hi, points=GRID) -> dict:
     root of ``dy`` when given, else by a bounded scalar minimisation."""
     grid = np.linspace(0.0, horizon, points)
     z = y(grid) / final
+    if not np.isfinite(z[0]):               # e.g. a numerical inverse singular at t = 0
+        grid[0] = grid[1] * 1e-9
+        z[0] = y(grid[:1])[0] / final
+    if not np.all(np.isfinite(z)):
+        return _no_step("the response is not finite everywhere on [0, horizon]")
     sy = lambda x: float(y(x)[0]) / final          # noqa: E731
 
     def first_cross(level):

@@ -17,12 +17,14 @@ import numpy as np
 import sympy as sp
 
 from .._types import S
-from ..errors import ParameterError, SamplingError
+from ..errors import ParameterError, SamplingError, SheetfuncsError
 from .split import additive_terms
 
 DPS = 20
 #: largest accepted relative disagreement between Talbot and de Hoog
 AGREEMENT = 1e-6
+#: at most this many times are redone with mpmath when the fast contour fails
+MPMATH_FALLBACK_POINTS = 50
 
 
 def _delay_groups(F: sp.Expr) -> list[tuple[float, sp.Expr]]:
@@ -96,6 +98,11 @@ class NumericInverse:
             if m.any():
                 vals = talbot(fast, times[m] - d) if fast is not None else None
                 if vals is None or not np.all(np.isfinite(vals)):
+                    bad = m.sum() if vals is None else int((~np.isfinite(vals)).sum())
+                    if bad > MPMATH_FALLBACK_POINTS:
+                        raise SamplingError(
+                            f"numerical inversion does not converge at {bad} of {int(m.sum())} times; "
+                            "F(s) may not be the transform of an ordinary function")
                     vals = np.array([self._one(fn, G, x - d) for x in times[m]])
                 out[m] += vals
             at = times == d
@@ -109,6 +116,8 @@ class NumericInverse:
         with mpmath.workdps(DPS):
             try:
                 return float(mpmath.invertlaplace(fn, t, method=method))
+            except SheetfuncsError:
+                raise
             except Exception as exc:  # noqa: BLE001 - mpmath fails in many ways on wild input
                 raise SamplingError(f"numerical inversion failed at t={t:g} "
                                     f"({type(exc).__name__}); check the expression") from exc
@@ -135,7 +144,7 @@ class NumericInverse:
         worst = 0.0
         for t, a in zip(probe, fast):
             b = self.value(t, "dehoog")
-            rel = abs(a - b) / max(abs(a), abs(b), 1e-12)
+            rel = abs(a - b) / max(abs(a), abs(b), 1e-12) if np.isfinite(a) and np.isfinite(b) else np.inf
             worst = max(worst, rel)
             if rel > AGREEMENT:
                 raise SamplingError(
