@@ -442,6 +442,8 @@ def build_slab() -> tuple[Workbook, dict]:
                "dtemp/(s cosh(thick sqrt(s/alpha)))", "slab expression")
     B = c.text("semi-infinite solid at depth L (closed form: erfc)",
                "dtemp exp(-thick sqrt(s/alpha))/s", "semi-infinite expression")
+    G = c.text("slab transfer, face to far face (for the step figures)",
+               "1/cosh(thick sqrt(s/alpha))", "slab transfer G(s)")
     c.row += 1
     c.section("Results")
     c.text("slab: far-face rise f(t)", f"=SF_INVERSE({A})", "slab f(t) text (SF_INVERSE)", height=16)
@@ -459,6 +461,12 @@ def build_slab() -> tuple[Workbook, dict]:
              expr=b, time_factor=1, kind="semi")
     c.figure("slab far-face rise at t = 4 thick^2/alpha", f"=SF_RESPONSE({A},4*{T})", "K", "0.000",
              expr=a, time_factor=4, kind="slab")
+    g = G.replace("$", "")
+    c.figure("far face within 2 % of dtemp after (settling time)", f'=SF_FIGURE({G},"settling time","step")',
+             "s", "0", expr=g, params=None, input="step", attr="settling_time", kind="slab_level",
+             level=0.98)
+    c.figure("far face 10 % to 90 % of dtemp (rise time)", f'=SF_FIGURE({G},"rise time","step")',
+             "s", "0", expr=g, params=None, input="step", attr="rise_time")
     c.row += 1
     c.section("Slab modes: poles of 1/cosh(L sqrt(s/alpha)) at s_n = -(2n+1)^2 pi^2 alpha/(4 L^2)")
     c.heads("mode n", "pole s_n [1/s]", "time constant [s]")
