@@ -16,11 +16,6 @@ from .engine.results import InversionResult
 from .engine.sample import Samples, sample as _sample
 
 
-def _key_params(params):
-    return None if params is None else {str(k): (v if isinstance(v, (int, float, str)) else repr(v))
-                                        for k, v in dict(params).items()}
-
-
 @cache.memo
 def _invert_cached(expr: str, params):
     return _invert(expr, params)
@@ -29,7 +24,7 @@ def _invert_cached(expr: str, params):
 def invert(expr, params: Mapping | None = None) -> InversionResult:
     """Inverse Laplace transform of ``expr`` (text or SymPy) for t >= 0."""
     if isinstance(expr, str):
-        return _invert_cached(expr, _key_params(params))
+        return _invert_cached(expr, None if params is None else dict(params))
     return _invert(expr, params)
 
 
@@ -42,7 +37,8 @@ def figures(expr, params: Mapping | None = None, *, input="step", settle: float 
             rise: tuple = (0.1, 0.9)) -> Figures:
     """Response figures for ``input`` (impulse, step, ramp or U(s))."""
     if isinstance(expr, str) and isinstance(input, str):
-        return _figures_cached(expr, _key_params(params), input, float(settle), tuple(rise))
+        return _figures_cached(expr, None if params is None else dict(params), input, float(settle),
+                               tuple(rise))
     return _figures(expr, params, input=input, settle=settle, rise=rise)
 
 

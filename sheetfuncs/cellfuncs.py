@@ -30,6 +30,7 @@ from .engine.invert import pair_time_term
 from .engine.parse import CONSTANTS, TIME_FUNCTIONS
 from .engine.partfrac import PairTerm
 from .engine.results import pair
+from .report import complex_text
 from .errors import ParameterError, SamplingError, SheetfuncsError, UnsupportedExpressionError
 
 PREFIX = "SF_"
@@ -226,15 +227,6 @@ def sheet_formula(expr, tref=None, params=None, digits=None):
     return api.excel_formula(res, ref, digits=_number(digits, "digits", 15, integer=True))
 
 
-def _complex_text(z, digits):
-    re_, im = z
-    if isinstance(re_, str) or isinstance(im, str):
-        return f"{re_} + ({im})j"
-    if im == 0:
-        return f"{re_:.{digits}g}"
-    return f"{re_:.{digits}g} {'+' if im >= 0 else '-'} {abs(im):.{digits}g}j"
-
-
 @cell
 def partfrac_table(expr, params=None, digits=None):
     """Rows: pole, order, coefficient, real-form term, time term (header first)."""
@@ -248,12 +240,12 @@ def partfrac_table(expr, params=None, digits=None):
     s = sp.Symbol("s")
     for i, c in enumerate(dec.direct):
         if c != 0:
-            rows.append(["(polynomial part)", i, _complex_text(pair(c), nd), to_display(c * s ** i, digits=nd),
+            rows.append(["(polynomial part)", i, complex_text(pair(c), nd), to_display(c * s ** i, digits=nd),
                          to_display(c * (sp.DiracDelta(sp.Symbol("t")) if i == 0 else sp.DiracDelta(sp.Symbol("t"), i)), digits=nd)])
     for pt in dec.pair_terms:
         real_form, time_term = _real_form(pt), pair_time_term(pt)
         for j, term in enumerate(_terms_of(pt)):
-            rows.append([_complex_text(pair(term.pole), nd), term.order, _complex_text(pair(term.coefficient), nd),
+            rows.append([complex_text(pair(term.pole), nd), term.order, complex_text(pair(term.coefficient), nd),
                          to_display(real_form, digits=nd) if j == 0 else "(with the row above)",
                          to_display(time_term, digits=nd) if j == 0 else "(with the row above)"])
     return rows
@@ -298,21 +290,15 @@ def stability(expr, params=None):
     return api.figures(_expr(expr), params_of(params), input="impulse").stability
 
 
-@functools.lru_cache(maxsize=256)
-def _response_fn(expr: str, input, params_key):
+@cache.memo
+def _response_result(expr: str, input, params: dict):
+    """The inverted response Y(s) = F(s) U(s), shared by every row of a sampled column."""
     from .engine import limits
     from .engine.invert import invert_expr
     from .engine.sample import response_expr
-    Y = response_expr(expr, dict(params_key), input or "impulse")
+    Y = response_expr(expr, params, input or "impulse")
     with limits.deadline(None):
         return invert_expr(Y)
-
-
-def _response_result(expr, input, params):
-    key = tuple(sorted((k, v if isinstance(v, (int, float, str)) else repr(v)) for k, v in params.items()))
-    if not cache.enabled():
-        return _response_fn.__wrapped__(expr, input, key)
-    return _response_fn(expr, input, key)
 
 
 @cell
@@ -395,16 +381,12 @@ def _ode(coeffs, initial, input_s, params):
     a = tuple(_vector(coeffs, "coefficients"))
     y0 = () if initial is None else tuple(c for row in _rows(initial) for c in row
                                           if c is not None and not (isinstance(c, str) and not c.strip()))
-    p = params_of(params)
-    key = tuple(sorted((k, v if isinstance(v, (int, float, str)) else repr(v)) for k, v in p.items()))
-    if not cache.enabled():
-        return _ode_solution.__wrapped__(a, y0, _input(input_s), key)
-    return _ode_solution(a, y0, _input(input_s), key)
+    return _ode_solution(a, y0, _input(input_s), params_of(params))
 
 
-@functools.lru_cache(maxsize=256)
-def _ode_solution(coeffs, initial, input_s, params_key):
-    return api.solve_ode(list(coeffs), list(initial), input_s, dict(params_key))
+@cache.memo
+def _ode_solution(coeffs: tuple, initial: tuple, input_s, params: dict):
+    return api.solve_ode(list(coeffs), list(initial), input_s, params)
 
 
 ODE_PARTS = {"y": "y", "y(t)": "y", "y(s)": "Y", "free": "free", "forced": "forced"}

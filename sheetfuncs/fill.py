@@ -110,7 +110,7 @@ def _is_error(value) -> bool:
 
 
 # ------------------------------------------------------------------ names
-def name_values(book: _refs.Book) -> dict:
+def defined_name_values(book: _refs.Book) -> dict:
     """Workbook-scoped defined names that point at one cell holding a number."""
     out = {}
     for key, text in book.book_names.items():
@@ -130,13 +130,8 @@ def name_values(book: _refs.Book) -> dict:
         if isinstance(value, _refs.Formula):
             value = book.cached(sheet, (ref.r1, ref.c1))
         if isinstance(value, (int, float)) and not isinstance(value, bool):
-            original = _original_name(book, key)
-            out[original] = float(value)
+            out[book.book_name_case.get(key, key)] = float(value)
     return out
-
-
-def _original_name(book, key):
-    return getattr(book, "book_name_case", {}).get(key, key)
 
 
 def _spill_cells(text: str, book: _refs.Book):
@@ -183,7 +178,7 @@ def fill_workbook(src, dst=None, *, in_place: bool = False, functions: Mapping |
                             file=str(src))
     pkg = read_package(src)                       # refuses corrupt / encrypted files early
     book = _refs.open_book(src)
-    names = name_values(book)
+    names = defined_name_values(book)
     if use_cache and cache.enabled():
         store = store or cache.ResultStore()
     else:

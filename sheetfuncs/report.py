@@ -16,7 +16,8 @@ def _g(x, digits=6):
     return f"{x:.{digits}g}"
 
 
-def _c(z, digits=6):
+def complex_text(z, digits=6) -> str:
+    """``[re, im]`` as text: '-1 + 2j', '0.5', or symbolic parts as they are."""
     re, im = z
     if isinstance(re, str) or isinstance(im, str):
         return f"{re} + ({im})j" if im not in (0, 0.0, "0") else str(re)
@@ -43,7 +44,7 @@ def inversion(res, d, digits=6) -> str:
            + ("   for t >= 0" if res.f_t is not None else ""),
            f"method : {res.method}"]
     if res.terms:
-        rows = [(_c(pair(t.pole), digits), t.order, _c(pair(t.coefficient), digits)) for t in res.terms]
+        rows = [(complex_text(pair(t.pole), digits), t.order, complex_text(pair(t.coefficient), digits)) for t in res.terms]
         out += ["", "partial fractions  F(s) = sum coefficient/(s - pole)^order", table(("pole", "order", "coefficient"), rows)]
     if res.real_terms:
         rows = [(sp.sstr(r.numerator), f"({sp.sstr(r.base)})^{r.power}" if r.power > 1 else f"({sp.sstr(r.base)})")
@@ -78,7 +79,7 @@ def samples(res, digits=6) -> str:
 
 
 def figures(f, digits=6) -> str:
-    rows = [(_c((p.pole.real, p.pole.imag), digits), p.multiplicity, _g(p.damping_ratio, digits),
+    rows = [(complex_text((p.pole.real, p.pole.imag), digits), p.multiplicity, _g(p.damping_ratio, digits),
              _g(p.natural_frequency, digits), _g(p.time_constant, digits)) for p in f.poles]
     out = [table(("pole", "mult.", "damping ratio", "natural freq. (rad/s)", "time constant"), rows), "",
            f"stability      : {f.stability}"]

@@ -17,6 +17,7 @@ import sympy as sp
 from .._types import S, T
 from ..errors import UnsupportedExpressionError
 from .parse import parse
+from .split import additive_terms, pure_delay
 
 
 def to_t_expr(signal, params: Mapping | None = None) -> sp.Expr:
@@ -37,12 +38,8 @@ def transform(signal, params: Mapping | None = None) -> sp.Expr:
 
 def _tidy(F):
     groups: dict = {}
-    for term in sp.Add.make_args(sp.expand(F)):
-        delay = sp.S.Zero
-        rest = term
-        for e in [a for a in sp.Mul.make_args(term) if isinstance(a, sp.exp) and a.has(S)]:
-            delay += -e.args[0].coeff(S)
-            rest = rest / e
+    for term in additive_terms(F):
+        delay, rest = pure_delay(term)
         groups.setdefault(delay, []).append(rest)
     out = []
     for delay in sorted(groups, key=lambda d: float(d) if d.is_number else 0.0):

@@ -18,7 +18,7 @@ import sympy as sp
 
 from .._types import S
 from ..errors import ParameterError, SamplingError, SheetfuncsError
-from .split import additive_terms
+from .split import additive_terms, pure_delay
 
 DPS = 20
 #: largest accepted relative disagreement between Talbot and de Hoog
@@ -30,19 +30,8 @@ MPMATH_FALLBACK_POINTS = 50
 def _delay_groups(F: sp.Expr) -> list[tuple[float, sp.Expr]]:
     groups: dict = {}
     for term in additive_terms(F):
-        delay = sp.S.Zero
-        rest = []
-        for factor in sp.Mul.make_args(term):
-            if isinstance(factor, sp.exp) and factor.has(S):
-                arg = sp.expand(factor.args[0])
-                c1 = arg.coeff(S, 1)
-                c0 = arg - c1 * S
-                if c1.is_number and c1.is_nonpositive and c1 != 0:
-                    delay += -c1
-                    rest.append(sp.exp(c0))
-                    continue
-            rest.append(factor)
-        groups.setdefault(delay, []).append(sp.Mul(*rest))
+        delay, rest = pure_delay(term)
+        groups.setdefault(delay, []).append(rest)
     return [(float(d), sp.Add(*g)) for d, g in sorted(groups.items(), key=lambda kv: float(kv[0]))]
 
 

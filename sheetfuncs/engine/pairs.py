@@ -12,7 +12,7 @@ from __future__ import annotations
 import sympy as sp
 
 from .._types import S, T
-from .split import additive_terms
+from .split import additive_terms, pure_delay
 
 _k = sp.Wild("k", exclude=[S], properties=[lambda x: x.is_positive])
 _a = sp.Wild("a", exclude=[S], properties=[lambda x: x.is_real])
@@ -57,17 +57,9 @@ def invert_by_pairs(F: sp.Expr):
 
 def _invert_term(term):
     coeff, g = term.as_independent(S, as_Add=False)
-    delay = sp.S.Zero
-    exps = [e for e in sp.Mul.make_args(g) if isinstance(e, sp.exp) and e.has(S)]
-    rest = g
-    for e in exps:
-        arg = sp.expand(e.args[0])
-        c1 = arg.coeff(S, 1)
-        c0 = arg - c1 * S
-        if not c1.has(S) and c1 != 0 and c1.is_nonpositive:
-            delay += -c1
-            coeff *= sp.exp(c0)
-            rest = rest / e
+    delay, rest = pure_delay(g)
+    c2, rest = rest.as_independent(S, as_Add=False)
+    coeff *= c2
     f = _match(sp.powsimp(rest))
     if f is None:
         return None

@@ -66,6 +66,8 @@ class InversionResult:
     real_terms: tuple             # partfrac.RealTerm
     pieces: tuple = ()            # DelayedPiece, one per distinct delay
     numerical: object = field(default=None, compare=False)
+    #: derived forms computed once per result (compiled samplers); not part of the value
+    derived: dict = field(default_factory=dict, compare=False, repr=False)
 
     @property
     def is_numerical(self) -> bool:

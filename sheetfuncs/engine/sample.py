@@ -124,20 +124,25 @@ def evaluate(result, grid: np.ndarray) -> np.ndarray:
     grid = np.asarray(grid, dtype=float)
     y = np.zeros_like(grid)
     with np.errstate(all="ignore"):
-        if result.pieces:
-            for piece in result.pieces:
-                delay = float(piece.delay)
-                mask = grid >= delay
-                if not mask.any():
-                    continue
-                f = numpy_function(sp.expand(piece.gain) * time_function(piece.decomposition))
-                y[mask] += f(grid[mask] - delay)
-        else:
-            for start, term in delayed_terms(result.f_t):
-                mask = grid >= start
-                if mask.any():
-                    y[mask] += numpy_function(term)(grid[mask])
+        for start, f in samplers(result):
+            mask = grid >= start
+            if mask.any():
+                y[mask] += f(grid[mask] - start if result.pieces else grid[mask])
     return y
+
+
+def samplers(result) -> list:
+    """[(start, numpy function)] of a closed-form result, compiled once per result:
+    per delayed piece (a function of t - delay), or per delayed term of f(t)."""
+    out = result.derived.get("samplers")
+    if out is None:
+        if result.pieces:
+            out = [(float(p.delay), numpy_function(sp.expand(p.gain) * time_function(p.decomposition)))
+                   for p in result.pieces]
+        else:
+            out = [(start, numpy_function(term)) for start, term in delayed_terms(result.f_t)]
+        result.derived["samplers"] = out
+    return out
 
 
 def delayed_terms(f: sp.Expr) -> list[tuple[float, sp.Expr]]:

@@ -87,3 +87,23 @@ def additive_terms(F: sp.Expr, limit: int = 256) -> list[sp.Expr]:
                 parts = [p + [f] for p in parts]
         out.extend(sp.Mul(*p) for p in parts)
     return out
+
+
+def pure_delay(term: sp.Expr) -> tuple[sp.Expr, sp.Expr]:
+    """``term = rest * exp(-delay*s)``: the delay carried by the term's exponential
+    factors (``exp(c0 + c1 s)`` with ``c1 <= 0``) and the rest, keeping any part
+    of an exponent that is not linear in s (``exp(-s - sqrt(s))`` -> 1, ``exp(-sqrt(s))``)."""
+    delay = sp.S.Zero
+    rest = []
+    for factor in sp.Mul.make_args(term):
+        if isinstance(factor, sp.exp) and factor.has(S):
+            arg = sp.expand(factor.args[0])
+            c1 = arg.coeff(S, 1)
+            if c1 != 0 and not c1.has(S) and c1.is_nonpositive:
+                delay += -c1
+                c0 = arg - c1 * S
+                if c0 != 0:
+                    rest.append(sp.exp(c0))
+                continue
+        rest.append(factor)
+    return delay, sp.Mul(*rest)
