@@ -26,27 +26,33 @@ def test_ramp_is_integral_of_step():
 
 
 def test_impulses_reported_not_sampled():
+    # (s^2+1)/(s+1) = s - 1 + 2/(s+1) by polynomial division (checked against scipy.signal.residue
+    # in tests/reference): impulses delta'(t) - delta(t), samples 2 e^{-t}
     res = sf.sample("(s^2+1)/(s+1)", [0.0, 1.0])
     assert np.allclose(res.y, [2.0, 2 * np.exp(-1)])
     assert {(i.time, i.order, i.weight) for i in res.impulses} == {(0.0, 0, -1.0), (0.0, 1, 1.0)}
 
 
 def test_delayed_impulse():
+    # time-shift rule (fact of the trade): e^{-2s} <-> delta(t - 2)
     res = sf.sample("exp(-2s)", [1.0, 3.0])
     assert list(res.y) == [0.0, 0.0]
     assert [(i.time, i.order, i.weight) for i in res.impulses] == [(2.0, 0, 1.0)]
 
 
 def test_unstable_delayed_term_does_not_overflow_before_start():
+    # time-shift rule: e^{-50 s}/(s - 20) <-> e^{20 (t - 50)} u(t - 50): 0 before 50, 1 at 50
     res = sf.sample("exp(-50s)/(s-20)", [0.0, 10.0, 49.0, 50.0])
     assert list(res.y[:3]) == [0.0, 0.0, 0.0] and res.y[3] == 1.0
 
 
 def test_negative_times_are_zero():
+    # f(t) is taken for t >= 0 (one-sided transform): zero before
     assert list(sf.sample("1/(s+1)", [-1.0, -0.1]).y) == [0.0, 0.0]
 
 
 def test_grid_and_input_expression():
+    # table pair: 1/(s(s+1)) <-> 1 - e^{-t}
     res = sf.sample("1/(s+1)", start=0, stop=1, n=3, input="1/s")
     assert np.allclose(res.t, [0, 0.5, 1]) and np.allclose(res.y, 1 - np.exp(-res.t))
 
