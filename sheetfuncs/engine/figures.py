@@ -13,75 +13,17 @@ from typing import Mapping
 
 import numpy as np
 import sympy as sp
-from scipy.optimize import brentq
 
 from .._types import S, T
 from ..errors import ParameterError, UnsupportedExpressionError
 from . import limits
 from .invert import invert_expr, time_function, to_s_expr
 from .results import finite_or_none, pair
+from .figcore import (GRID, Figures, PoleInfo, _no_step, _stability, pole_info,  # noqa: F401
+                      time_figures)
 from .sample import input_transform, numpy_function
 from .split import split_delays
 
-GRID = 40_000
-
-
-@dataclass(frozen=True)
-class PoleInfo:
-    pole: complex
-    multiplicity: int
-    damping_ratio: float | None
-    natural_frequency: float
-    time_constant: float | None
-
-    def to_dict(self):
-        return {"pole": [self.pole.real, self.pole.imag], "multiplicity": self.multiplicity,
-                "damping_ratio": self.damping_ratio, "natural_frequency": self.natural_frequency,
-                "time_constant": self.time_constant}
-
-
-@dataclass(frozen=True)
-class Figures:
-    input: str
-    poles: tuple                      # PoleInfo of F(s)
-    zeros: tuple                      # complex zeros of F(s) (rational, no delay)
-    stable: bool | None
-    stability: str
-    dc_gain: float | None
-    initial_value: float | None
-    final_value: float | None
-    final_value_note: str
-    rise_time: float | None = None
-    peak_time: float | None = None
-    peak_value: float | None = None
-    overshoot_percent: float | None = None
-    settling_time: float | None = None
-    settling_band: float = 0.02
-    rise_band: tuple = (0.1, 0.9)
-    notes: tuple = field(default=())
-
-    def to_dict(self) -> dict:
-        out = {
-            "final_value": self.final_value, "initial_value": self.initial_value,
-            "dc_gain": self.dc_gain, "stable": self.stable,
-            "poles": [[p.pole.real, p.pole.imag] for p in self.poles for _ in range(p.multiplicity)],
-            "zeros": [[z.real, z.imag] for z in self.zeros],
-            "stability": self.stability, "final_value_note": self.final_value_note,
-            "pole_table": [p.to_dict() for p in self.poles], "input": self.input,
-        }
-        if self.input == "step":
-            out.update(rise_time=self.rise_time, peak_time=self.peak_time, peak_value=self.peak_value,
-                       overshoot_percent=self.overshoot_percent, settling_time=self.settling_time,
-                       settling_band=self.settling_band, rise_band=list(self.rise_band))
-        out["notes"] = list(self.notes)
-        return out
-
-
-def pole_info(p: complex, mult: int) -> PoleInfo:
-    wn = abs(p)
-    zeta = (-p.real / wn) if wn > 0 else None
-    tau = (-1.0 / p.real) if p.real < 0 else None
-    return PoleInfo(p, mult, zeta, wn, tau)
 
 
 def _poles(result) -> list[tuple[complex, int]]:
@@ -95,19 +37,6 @@ def _poles(result) -> list[tuple[complex, int]]:
             value, m0 = acc.get(key, (complex(re, im), 0))
             acc[key] = (value, max(m0, mult))
     return sorted(acc.values(), key=lambda kv: (-kv[0].real, kv[0].imag))
-
-
-def _stability(poles) -> tuple[bool | None, str]:
-    scale = max([abs(p) for p, _ in poles] + [1.0])
-    tol = 1e-12 * scale
-    if any(p.real > tol for p, _ in poles):
-        return False, "unstable (pole in the right half-plane)"
-    axis = [(p, m) for p, m in poles if abs(p.real) <= tol]
-    if any(m > 1 for _, m in axis):
-        return False, "unstable (repeated pole on the imaginary axis)"
-    if axis:
-        return False, "marginally stable (simple pole on the imaginary axis)"
-    return True, "stable (all poles in the open left half-plane)"
 
 
 def figures(expr, params: Mapping | None = None, *, input="step", settle: float = 0.02,
@@ -227,11 +156,6 @@ def _response_functions(resp):
     return summed(1), summed(2), max(d for d, _, _ in fns)
 
 
-def _no_step(note="no step figures without a non-zero final value") -> dict:
-    return dict(rise_time=None, peak_time=None, peak_value=None, overshoot_percent=None,
-                settling_time=None, notes=(note,))
-
-
 def _step_figures(resp, sys_poles, final, settle, lo, hi) -> dict:
     if final is None or final == 0 or not sys_poles:
         return _no_step()
@@ -242,53 +166,3 @@ def _step_figures(resp, sys_poles, final, settle, lo, hi) -> dict:
     return time_figures(y, dy, horizon, final, settle, lo, hi)
 
 
-def time_figures(y, dy, horizon, final, settle, lo, hi, points=GRID) -> dict:
-    """Rise, peak, overshoot and settling of y (vectorised) towards ``final``, found by
-    Brent's method bracketed on a grid of ``points`` over [0, horizon]; the peak by the
-    root of ``dy`` when given, else by a bounded scalar minimisation."""
-    grid = np.linspace(0.0, horizon, points)
-    z = y(grid) / final
-    if not np.isfinite(z[0]):               # e.g. a numerical inverse singular at t = 0
-        grid[0] = grid[1] * 1e-9
-        z[0] = y(grid[:1])[0] / final
-    if not np.all(np.isfinite(z)):
-        return _no_step("the response is not finite everywhere on [0, horizon]")
-    sy = lambda x: float(y(x)[0]) / final          # noqa: E731
-
-    def first_cross(level):
-        idx = np.nonzero(z >= level)[0]
-        if idx.size == 0:
-            return None
-        i = idx[0]
-        if i == 0:
-            return 0.0
-        return brentq(lambda x: sy(x) - level, grid[i - 1], grid[i], xtol=1e-15, rtol=1e-14)
-
-    t_lo, t_hi = first_cross(lo), first_cross(hi)
-    rise_time = (t_hi - t_lo) if t_lo is not None and t_hi is not None else None
-    i_max = int(np.argmax(z))
-    peak_time = peak_value = None
-    overshoot = 0.0
-    if z[i_max] > 1 + 1e-12 and 0 < i_max < points - 1:
-        a, b = grid[i_max - 1], grid[i_max + 1]
-        if dy is not None:
-            d = lambda x: float(dy(x)[0]) / final      # noqa: E731
-            peak_time = brentq(d, a, b, xtol=1e-15, rtol=1e-14) if d(a) > 0 > d(b) else grid[i_max]
-        else:
-            from scipy.optimize import minimize_scalar
-            peak_time = float(minimize_scalar(lambda x: -sy(x), bounds=(a, b), method="bounded",
-                                              options={"xatol": 1e-10 * max(b, 1e-300)}).x)
-        peak_value = float(y(peak_time)[0])
-        overshoot = 100.0 * (peak_value - final) / abs(final)
-    outside = np.nonzero(np.abs(z - 1) > settle)[0]
-    settling = None
-    if outside.size:
-        j = outside[-1]
-        if j < points - 1:
-            side = 1 if z[j] > 1 else -1
-            settling = brentq(lambda x: sy(x) - 1 - side * settle, grid[j], grid[j + 1],
-                              xtol=1e-15, rtol=1e-14)
-    else:
-        settling = 0.0
-    return dict(rise_time=rise_time, peak_time=peak_time, peak_value=peak_value,
-                overshoot_percent=overshoot, settling_time=settling)

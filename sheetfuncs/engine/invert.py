@@ -40,10 +40,17 @@ def to_s_expr(expr, params: Mapping | None = None) -> sp.Expr:
 
 
 def invert(expr, params: Mapping | None = None, *, numeric: bool = True,
-           timeout: float | None = None) -> InversionResult:
-    """Inverse Laplace transform of ``expr`` (text or SymPy) for t >= 0."""
-    F = to_s_expr(expr, params)
+           timeout: float | None = None):
+    """Inverse Laplace transform of ``expr`` (text or SymPy) for t >= 0.
+
+    The fast exact core (``fast.py``) answers whatever is rational in s and
+    e^{-sT} with rational coefficients; the general SymPy route below the rest."""
+    from .fast import fast_invert
     with limits.deadline(timeout):
+        res = fast_invert(expr, params)
+        if res is not None:
+            return res
+        F = to_s_expr(expr, params)
         return invert_expr(F, numeric=numeric)
 
 
@@ -51,15 +58,20 @@ def check_expr(F: sp.Expr) -> None:
     """Refuse what no real system can be: complex coefficients, infinities."""
     if F.has(sp.zoo, sp.oo, -sp.oo, sp.nan):
         raise UnsupportedExpressionError("the expression is infinite or undefined (e.g. log(0), 1/0)")
-    if F.has(sp.I):
+    if F.has(sp.I) and sp.cancel(sp.expand(F)).has(sp.I):
         raise UnsupportedExpressionError("F(s) has a complex coefficient (e.g. sqrt(-1))",
                                          "a real system has real coefficients")
     if not isinstance(F, sp.Expr):
         raise UnsupportedExpressionError("not an expression in s")
 
 
-def invert_expr(F: sp.Expr, *, numeric: bool = True) -> InversionResult:
+def invert_expr(F: sp.Expr, *, numeric: bool = True, fast: bool = True):
     check_expr(F)
+    if fast:
+        from .fast import fast_invert
+        res = fast_invert(F)
+        if res is not None:
+            return res
     if not F.has(S):
         return InversionResult(F, F * sp.DiracDelta(T), "table", (), (F,) if F != 0 else (), ())
     pieces = split_delays(F)
@@ -132,10 +144,10 @@ def pair_time_term(pt: PairTerm) -> sp.Expr:
         return pt.x * fac * env
     wt = p.omega * T
     if p.sigma == -1:
-        osc = 2 * pt.x * sp.cos(wt) - 2 * pt.y * sp.sin(wt)
-    else:
-        osc = 2 * pt.x * sp.cosh(wt) + 2 * pt.y * sp.sinh(wt)
-    return fac * env * osc
+        return fac * env * (2 * pt.x * sp.cos(wt) - 2 * pt.y * sp.sin(wt))
+    # an irrational real pair: two exponentials (cosh/sinh overflow where their difference does not)
+    return fac * ((pt.x + pt.y) * sp.exp((p.alpha + p.omega) * T) +
+                  (pt.x - pt.y) * sp.exp((p.alpha - p.omega) * T))
 
 
 __all__ = ["invert", "invert_expr", "time_function", "to_s_expr", "SheetfuncsError"]

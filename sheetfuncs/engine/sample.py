@@ -12,11 +12,8 @@ from functools import lru_cache
 from typing import Mapping, Sequence
 
 import numpy as np
-import sympy as sp
 
-from .._types import S, T
 from ..errors import ParameterError, SamplingError
-from .invert import invert_expr, time_function, to_s_expr
 from . import limits
 
 MAX_POINTS = 1_000_000
@@ -49,8 +46,50 @@ class Samples:
                 "method": self.method, "error_estimate": self.error_estimate}
 
 
-def input_transform(kind, params: Mapping | None = None) -> sp.Expr:
+def input_name(kind) -> str:
+    """'impulse', 'step', 'ramp' or 'given' for an input argument."""
+    if kind is None:
+        return "impulse"
+    if isinstance(kind, str):
+        key = kind.strip().lower()
+        if key in ("impulse", ""):
+            return "impulse"
+        if key in ("step", "ramp"):
+            return key
+    return "given"
+
+
+def input_quasi(kind, params: Mapping | None = None):
+    """U(s) as a Quasi (fast core), or None when it is outside the fast class."""
+    from .quasi import Quasi
+    from .fast import quasi_of
+    name = input_name(kind)
+    if name == "impulse":
+        return Quasi.constant(1)
+    if name == "step":
+        return Quasi.s().inverse()
+    if name == "ramp":
+        return (Quasi.s() ** 2).inverse()
+    return quasi_of(kind, params)
+
+
+def response_result(expr, params: Mapping | None = None, input="impulse"):
+    """The inverted response Y(s) = F(s) U(s): fast core first, the general route otherwise."""
+    from .fast import invert_quasi, quasi_of
+    with limits.deadline(None):
+        qF = quasi_of(expr, params)
+        qU = input_quasi(input, params) if qF is not None else None
+        if qF is not None and qU is not None:
+            return invert_quasi(qF * qU)
+        from .invert import invert_expr
+        return invert_expr(response_expr(expr, params, input))
+
+
+def input_transform(kind, params: Mapping | None = None):
     """U(s) for a named input, or the given expression in s."""
+    import sympy as sp
+    from .._types import S
+    from .invert import to_s_expr
     if kind is None:
         return sp.S.One
     if isinstance(kind, str):
@@ -65,8 +104,9 @@ def input_transform(kind, params: Mapping | None = None) -> sp.Expr:
     return to_s_expr(kind, params)
 
 
-def response_expr(expr, params=None, input="impulse") -> sp.Expr:
+def response_expr(expr, params=None, input="impulse"):
     """Y(s) = F(s) * U(s)."""
+    from .invert import to_s_expr
     F = to_s_expr(expr, params)
     U = input_transform(input, params)
     return F * U
@@ -102,13 +142,17 @@ def sample(expr, times=None, *, start=None, stop=None, n=None, input="impulse",
            params: Mapping | None = None) -> Samples:
     """Sample the response to ``input`` at ``times`` (or on a grid)."""
     grid = time_grid(times, start, stop, n)
-    Y = response_expr(expr, params, input)
+    result = response_result(expr, params, input)
     with limits.deadline(None):
-        result = invert_expr(Y)
-    return sample_result(result, grid)
+        return sample_result(result, grid)
 
 
 def sample_result(result, grid: np.ndarray) -> Samples:
+    if getattr(result, "is_fast", False):
+        grid = np.asarray(grid, dtype=float)
+        horizon = float(grid.max()) if grid.size else 0.0
+        y = result.evaluator(horizon).values(grid)
+        return Samples(grid, y, result.impulses(), False, result.method)
     if result.f_t is None:
         inv = result.numerical
         estimate = inv.verify(grid)
@@ -136,6 +180,8 @@ def samplers(result) -> list:
     per delayed piece (a function of t - delay), or per delayed term of f(t)."""
     out = result.derived.get("samplers")
     if out is None:
+        import sympy as sp
+        from .invert import time_function
         if result.pieces:
             out = [(float(p.delay), numpy_function(sp.expand(p.gain) * time_function(p.decomposition)))
                    for p in result.pieces]
@@ -145,9 +191,11 @@ def samplers(result) -> list:
     return out
 
 
-def delayed_terms(f: sp.Expr) -> list[tuple[float, sp.Expr]]:
+def delayed_terms(f) -> list[tuple[float, object]]:
     """f as [(start, term)]: each term is zero before its start (its Heaviside
     factors are dropped and the term is evaluated only from there on)."""
+    import sympy as sp
+    from .._types import T
     groups: dict[float, list] = {}
     for term in sp.Add.make_args(sp.expand(f, mul=True, multinomial=False, power_exp=False,
                                            power_base=False, log=False)):
@@ -167,15 +215,18 @@ def delayed_terms(f: sp.Expr) -> list[tuple[float, sp.Expr]]:
 
 
 def _require_numbers(f):
+    from .._types import T
     free = sorted(str(x) for x in f.free_symbols if x != T)
     if free:
         raise ParameterError(f"sampling needs values for {', '.join(free)}", free[0])
 
 
 @lru_cache(maxsize=512)
-def numpy_function(f: sp.Expr):
+def numpy_function(f):
     """A vectorised numpy function of t for f (DiracDelta dropped,
     Heaviside right-continuous)."""
+    import sympy as sp
+    from .._types import T
     f = f.replace(lambda e: isinstance(e, sp.DiracDelta), lambda e: sp.S.Zero)
     f = floats(f)           # exact 35-digit rationals inside sqrt() are not numpy numbers
     mods = [{"Heaviside": lambda x, *a: np.heaviside(x, 1.0)}, "scipy", "numpy"]
@@ -187,9 +238,10 @@ def numpy_function(f: sp.Expr):
     return call
 
 
-def floats(e: sp.Expr) -> sp.Expr:
+def floats(e):
     """Every numeric subexpression of e as a float (integers and integer
     exponents kept), ready for numpy."""
+    import sympy as sp
     if e.is_Integer or e.is_Symbol:
         return e
     if e.is_number:
@@ -200,7 +252,9 @@ def floats(e: sp.Expr) -> sp.Expr:
     return e.func(*[floats(a) for a in e.args])
 
 
-def impulses_of(f: sp.Expr) -> tuple:
+def impulses_of(f) -> tuple:
+    import sympy as sp
+    from .._types import T
     out = []
     for term in sp.Add.make_args(sp.expand(f)):
         deltas = [d for d in term.atoms(sp.DiracDelta)]
