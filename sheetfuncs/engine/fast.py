@@ -181,45 +181,86 @@ def real_terms_list(m: Modal) -> list:
 
 
 # ------------------------------------------------------------------ printing (SymPy syntax)
-def _num(x) -> str:
-    s = text(x)
-    return f"({s})" if any(ch in s[1:] for ch in "+-/ ") or s.startswith("-") else s
+def _is_neg(x) -> bool:
+    from .numbers import sign
+    return sign(x) < 0
+
+
+def _scaled(c, body: str) -> str:
+    """c*body as compact text ('body', '-body', '2*body', 'body/4', '(1 + sqrt(2))*body')."""
+    from .numbers import Surd
+    if body == "1":
+        return text(c)
+    neg = _is_neg(c) and not (isinstance(c, Surd) and c.q and c.p)
+    a = -c if neg else c
+    lead = "-" if neg else ""
+    if isinstance(a, Fraction):
+        if a == 1:
+            return lead + body
+        if a.numerator == 1:
+            return f"{lead}{body}/{a.denominator}"
+        if a.denominator == 1:
+            return f"{lead}{a.numerator}*{body}"
+        return f"{lead}{a.numerator}*{body}/{a.denominator}"
+    if isinstance(a, Surd):
+        t = text(a)
+        return f"{lead}({t})*{body}" if a.p else f"{lead}{t}*{body}"
+    return f"{lead}{text(a)}*{body}"
+
+
+def _join(parts) -> str:
+    out = ""
+    for p in parts:
+        if not out:
+            out = p
+        elif p.startswith("-"):
+            out += " - " + p[1:]
+        else:
+            out += " + " + p
+    return out or "0"
 
 
 def _tvar(delay) -> str:
     return "t" if delay == 0 else f"(t - {text(delay)})"
 
 
+def _rate(p, tv: str) -> str:
+    return _scaled(p, tv)
+
+
 def modal_text(m: Modal, tv: str = "t") -> str:
     """f(t) of one modal decomposition in SymPy syntax."""
     parts = []
+    arg = tv[1:-1] if tv.startswith("(") else tv
     for i, c in enumerate(m.direct):
         if c:
-            arg = tv.strip("()")
-            parts.append(f"{_num(c)}*DiracDelta({arg})" if i == 0 else f"{_num(c)}*DiracDelta({arg}, {i})")
+            parts.append(_scaled(c, f"DiracDelta({arg})" if i == 0 else f"DiracDelta({arg}, {i})"))
     for r in m.real:
-        e = f"exp({_num(r.pole)}*{tv})" if r.pole else "1"
+        e = f"exp({_rate(r.pole, tv)})" if r.pole else ""
         for k, c in enumerate(r.coeffs):
             if c:
-                parts.append(f"{_num(c)}*{_poly_factor(tv, k)}{e}")
+                body = "*".join(x for x in (_poly_factor(tv, k), e) if x) or "1"
+                parts.append(_scaled(c, body))
     for p in m.pairs:
-        env = f"exp({_num(p.alpha)}*{tv})*" if p.alpha else ""
-        wt = f"{_num(p.omega)}*{tv}"
+        env = f"exp({_rate(p.alpha, tv)})" if p.alpha else ""
+        wt = _rate(p.omega, tv)
         for k, (x, y) in enumerate(zip(p.xs, p.ys)):
             if x or y:
                 osc = []
                 if x:
-                    osc.append(f"2*{_num(x)}*cos({wt})")
+                    osc.append(_scaled(2 * x, f"cos({wt})"))
                 if y:
-                    osc.append(f"-2*{_num(y)}*sin({wt})")
-                parts.append(f"{_poly_factor(tv, k)}{env}({' + '.join(osc)})")
-    return " + ".join(parts) if parts else "0"
+                    osc.append(_scaled(-2 * y, f"sin({wt})"))
+                inner = _join(osc)
+                pre = "*".join(f for f in (_poly_factor(tv, k), env) if f)
+                parts.append(f"{pre}*({inner})" if pre else inner)
+    return _join(parts)
 
 
 def _poly_factor(tv, k) -> str:
     if k == 0:
         return ""
-    return f"{tv}**{k}/{factorial(k)}*" if k > 1 else f"{tv}*"
+    return f"{tv}**{k}/{factorial(k)}" if k > 1 else tv
 
 
 def time_text(pieces) -> str:
@@ -228,12 +269,11 @@ def time_text(pieces) -> str:
         body = modal_text(p.modal, _tvar(p.delay))
         if body == "0":
             continue
-        sign = "-" if p.sign < 0 else ""
         if p.delay == 0:
-            out.append(f"{sign}({body})" if sign else body)
+            out.append(f"-({body})" if p.sign < 0 else body)
         else:
-            out.append(f"{sign}({body})*Heaviside(t - {text(p.delay)})")
-    return " + ".join(out) if out else "0"
+            out.append(f"{'-' if p.sign < 0 else ''}({body})*Heaviside(t - {text(p.delay)})")
+    return _join(out)
 
 
 def sympify_time(txt: str):

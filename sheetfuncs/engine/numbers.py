@@ -125,16 +125,29 @@ def text(x) -> str:
     if isinstance(x, Surd):
         if not x.q:
             return text(x.p)
-        root = f"sqrt({text(x.W)})"
-        q = root if x.q == 1 else (f"-{root}" if x.q == -1 else f"{_factor_text(x.q)}*{root}")
+        k, core = _square_part(x.W.numerator * x.W.denominator)
+        q = x.q * Fraction(k, x.W.denominator)          # q sqrt(W) = q k / den * sqrt(core)
+        root = f"sqrt({core})"
+        neg = q < 0
+        a = -q if neg else q
+        body = root if a == 1 else (f"{root}/{a.denominator}" if a.numerator == 1 else
+                                    f"{a.numerator}*{root}" + (f"/{a.denominator}" if a.denominator != 1 else ""))
         if not x.p:
-            return q
-        return f"{text(x.p)} {'-' if q.startswith('-') else '+'} {q.lstrip('-')}"
+            return ("-" if neg else "") + body
+        return f"{text(x.p)} {'-' if neg else '+'} {body}"
     return repr(float(x))
 
 
-def _factor_text(q: Fraction) -> str:
-    return f"({text(q)})" if q.denominator != 1 else text(q)
+def _square_part(n: int) -> tuple[int, int]:
+    """n = k^2 * core with core square-free as far as trial division to 10^4 finds."""
+    k, core = 1, n
+    d = 2
+    while d * d <= core and d < 10_000:
+        while core % (d * d) == 0:
+            core //= d * d
+            k *= d
+        d += 1
+    return k, core
 
 
 def sign(x) -> int:

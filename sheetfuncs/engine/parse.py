@@ -46,8 +46,7 @@ TIME_FUNCTIONS = frozenset(_SHARED + ("u", "step", "heaviside", "delta", "dirac"
 CONSTANTS = frozenset({"pi", "e"})
 #: names refused as parameters: SymPy and spreadsheets read them as constants, infinities
 #: or the imaginary unit, so a result printed with them would read back as something else
-RESERVED_NAMES = frozenset({"nan", "inf", "infinity", "oo", "zoo", "i", "j", "e", "pi", "s", "t",
-                            "true", "false", "none"})
+RESERVED_NAMES = frozenset({"nan", "inf", "infinity", "oo", "zoo", "true", "false", "none"})
 RESERVED_EXACT = frozenset({"I", "E", "S", "N", "O", "Q"})
 
 _TOKEN = re.compile(r"""
@@ -407,7 +406,8 @@ def check_param_name(name) -> str:
     if not re.fullmatch(r"[A-Za-z][A-Za-z0-9]*", name) or keyword.iskeyword(name):
         raise ParameterError(f"parameter name '{name}' is not a plain name (letters and digits)", name)
     low = name.lower()
-    if low in CONSTANTS or low in TIME_FUNCTIONS or low in RESERVED_NAMES or name in RESERVED_EXACT:
+    if name in ("s", "t") or low in ("i", "j") or low in CONSTANTS or low in TIME_FUNCTIONS \
+            or low in RESERVED_NAMES or name in RESERVED_EXACT:
         raise ParameterError(f"'{name}' is reserved and cannot be a parameter", name)
     return name
 
