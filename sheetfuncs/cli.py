@@ -106,7 +106,18 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+def _safe_streams() -> None:
+    """Never crash on a console that cannot encode a character (a Windows code page,
+    redirected output): unencodable characters print as escapes."""
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.reconfigure(errors="backslashreplace")
+        except (AttributeError, ValueError):      # not a text stream we can reconfigure
+            pass
+
+
 def main(argv=None) -> int:
+    _safe_streams()
     argv = list(sys.argv[1:] if argv is None else argv)
     want_json = "--json" in argv
     debug = "--debug" in argv
