@@ -37,7 +37,7 @@ class Series:
         self.D0 = D0
         self.others = others            # [(b_j, D_j)]
         self.factors = qp.factor(D0) if qp.degree(D0) > 0 else []
-        self._levels = [{Fraction(0): qp.ONE}]      # level n: {delay: numerator over D0^(n+1)}
+        self._levels = [{qp.Q(0): qp.ONE}]      # level n: {delay: numerator over D0^(n+1)}
         self._pieces: list = []
         self._horizon = -1.0
         self._cache: dict = {}
@@ -45,9 +45,9 @@ class Series:
     @classmethod
     def build(cls, q) -> "Series":
         den = dict(q.den)
-        if Fraction(0) not in den:
+        if 0 not in den:
             raise UnsupportedExpressionError("the denominator has no delay-free part")
-        D0 = den.pop(Fraction(0))
+        D0 = den.pop(next(d for d in den if d == 0))
         others = sorted(den.items())
         for b, Dj in others:
             if qp.degree(Dj) > qp.degree(D0):
@@ -81,7 +81,7 @@ class Series:
                     if float(nd) + amin > horizon:
                         continue
                     nxt[nd] = qp.sub(nxt.get(nd, qp.ZERO), qp.mul(M, Dj))
-            nxt = {d: p for d, p in nxt.items() if p}
+            nxt = {d: p for d, p in nxt.items() if not qp.is_zero(p)}
             if not nxt:
                 break
             self._levels.append(nxt)
@@ -115,15 +115,15 @@ class Series:
         """Roots of D0 at NUMERIC_DPS digits with multiplicities (im >= 0 once per pair)."""
         if "roots" not in self._cache:
             import mpmath
-            from .modal import polish_roots
+            from .modal import exact_roots
             from .numbers import NUMERIC_DPS, to_mp
             out = []
             with mpmath.workdps(NUMERIC_DPS):
                 for f, m in self.factors:
                     if qp.degree(f) == 1:
-                        out.append((mpmath.mpc(-to_mp(f[0]), 0), m))
+                        out.append((mpmath.mpc(-to_mp(qp.coeff(f, 0)), 0), m))
                         continue
-                    for z in polish_roots([to_mp(c) for c in reversed(f)]):
+                    for z in exact_roots(f):
                         if abs(z.imag) <= abs(z) * mpmath.mpf(10) ** (-(NUMERIC_DPS - 10)):
                             z = mpmath.mpc(z.real, 0)
                         out.append((z, m))
@@ -139,10 +139,10 @@ class Series:
         Q = qp.power(self.D0, power)
         direct, P = qp.divmod_(P, Q)
         roots = self._roots()
-        lc = to_mp(self.D0[-1], NUMERIC_DPS) ** power
+        lc = to_mp(qp.lc(self.D0), NUMERIC_DPS) ** power
         reals, pairs = [], []
         with mpmath.workdps(NUMERIC_DPS):
-            Pm = [to_mp(c) for c in reversed(P)]
+            Pm = [to_mp(c) for c in reversed(qp.coeffs(P))]
             every = []
             for z, m in roots:
                 every.append((z, m * power))
@@ -171,7 +171,7 @@ class Series:
                 else:
                     pairs.append(PairMode(z.real, z.imag, tuple(c.real for c in coeffs),
                                           tuple(c.imag for c in coeffs)))
-        return Modal(direct, tuple(reals), tuple(pairs), (), False)
+        return Modal(tuple(qp.coeffs(direct)), tuple(reals), tuple(pairs), (), False)
 
     def evaluator(self, horizon: float | None) -> Evaluator:
         """An evaluator valid on [0, horizon]: the series re-expanded window by window."""
@@ -198,7 +198,7 @@ class Series:
 
 def _cval(p, z):
     acc = 0j
-    for c in reversed(p):
+    for c in reversed(qp.coeffs(p)):
         acc = acc * z + float(c)
     return acc
 
@@ -208,7 +208,8 @@ def rhp_root_count(D0, others) -> int | None:
     Z = n/2 - (1/pi) * (change of arg D(jw) for w from 0 to infinity)."""
     import numpy as np
     n = qp.degree(D0)
-    lc0 = abs(float(D0[-1]))
+    lc0 = abs(float(qp.lc(D0)))
+    c0 = qp.coeffs(D0)
 
     def D(w):
         z = 1j * w
@@ -217,14 +218,14 @@ def rhp_root_count(D0, others) -> int | None:
     # beyond W the delayed part is below half of |D0| (coefficient bounds)
     W = 1.0
     for _ in range(200):
-        d0_low = lc0 * W ** n - sum(abs(float(c)) * W ** i for i, c in enumerate(D0[:-1]))
-        dj_high = sum(sum(abs(float(c)) * W ** i for i, c in enumerate(Dj)) for _, Dj in others)
+        d0_low = lc0 * W ** n - sum(abs(float(c)) * W ** i for i, c in enumerate(c0[:-1]))
+        dj_high = sum(sum(abs(float(c)) * W ** i for i, c in enumerate(qp.coeffs(Dj))) for _, Dj in others)
         if d0_low > 2 * dj_high:
             break
         W *= 1.5
     else:
         return None
-    if abs(D(0.0)) < 1e-12 * max(1.0, abs(float(D0[0]))):
+    if abs(D(0.0)) < 1e-12 * max(1.0, abs(float(c0[0]))):
         return None                                        # a root at s = 0
     # arg change on [0, W] with step control
     total = 0.0
@@ -245,7 +246,7 @@ def rhp_root_count(D0, others) -> int | None:
         if abs(d) < 0.05:
             step *= 1.5
     # from W to infinity: D0's own arg change (from its roots) minus the arg of 1 + sum R_j at W
-    roots = np.roots([float(c) for c in reversed(D0)]) if n > 0 else []
+    roots = np.roots([float(c) for c in reversed(c0)]) if n > 0 else []
     tail = sum(math.copysign(math.pi / 2, 1.0) - np.angle(1j * W - r) for r in roots)
     ratio = D(W) / _cval(D0, 1j * W)
     total += tail - math.atan2(ratio.imag, ratio.real)

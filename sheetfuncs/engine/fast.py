@@ -194,14 +194,15 @@ def _scaled(c, body: str) -> str:
     neg = _is_neg(c) and not (isinstance(c, Surd) and c.q and c.p)
     a = -c if neg else c
     lead = "-" if neg else ""
-    if isinstance(a, Fraction):
-        if a == 1:
+    if isinstance(a, (Fraction,) + qp.RATIONAL):
+        an, ad = int(a.numerator), int(a.denominator)
+        if an == 1 and ad == 1:
             return lead + body
-        if a.numerator == 1:
-            return f"{lead}{body}/{a.denominator}"
-        if a.denominator == 1:
-            return f"{lead}{a.numerator}*{body}"
-        return f"{lead}{a.numerator}*{body}/{a.denominator}"
+        if an == 1:
+            return f"{lead}{body}/{ad}"
+        if ad == 1:
+            return f"{lead}{an}*{body}"
+        return f"{lead}{an}*{body}/{ad}"
     if isinstance(a, Surd):
         t = text(a)
         return f"{lead}({t})*{body}" if a.p else f"{lead}{t}*{body}"
@@ -287,14 +288,15 @@ def quasi_to_sympy(q: Quasi):
     from .._types import S
 
     def side(m):
-        return sp.Add(*[_poly_sym(p, S) * (sp.exp(-sp.Rational(d.numerator, d.denominator) * S)
+        return sp.Add(*[_poly_sym(p, S) * (sp.exp(-sp.Rational(int(d.numerator), int(d.denominator)) * S)
                                             if d else 1) for d, p in sorted(m.items())])
     return side(q.num) / side(q.den)
 
 
 def _poly_sym(p, S):
     import sympy as sp
-    return sp.Add(*[sp.Rational(c.numerator, c.denominator) * S ** i for i, c in enumerate(p)])
+    return sp.Add(*[sp.Rational(int(c.numerator), int(c.denominator)) * S ** i
+                    for i, c in enumerate(qp.coeffs(p))])
 
 
 # ------------------------------------------------------------------ entry point
@@ -311,7 +313,7 @@ def invert_quasi(q: Quasi) -> FastResult:
         from .deadtime import Series
         series = Series.build(q)
         return FastResult(q, series.method, (), series)
-    D = q.den[Fraction(0)]
+    D = q.den[next(iter(q.den))]
     if any(d < 0 for d in q.num):
         d = min(q.num)
         raise UnsupportedExpressionError(
@@ -331,7 +333,7 @@ def invert_quasi(q: Quasi) -> FastResult:
         exact = exact and modal.exact
         pieces.append(Piece(delay, modal))
     if not pieces:
-        pieces = [Piece(Fraction(0), Modal((), (), (), (), True))]
+        pieces = [Piece(qp.Q(0), Modal((), (), (), (), True))]
     if len(pieces) == 1 and pieces[0].delay == 0:
         method = "partial fractions"
     else:

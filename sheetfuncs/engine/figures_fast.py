@@ -16,6 +16,7 @@ import numpy as np
 
 from . import limits
 from . import qpoly as qp
+from .qpoly import Q
 from .fast import invert_quasi, quasi_of
 from .figcore import Figures, _no_step, _stability, pole_info, time_figures
 from .numbers import to_float
@@ -53,13 +54,13 @@ def value_at_zero(q: Quasi, order: int = 24):
     """lim F(s) as s -> 0 exactly (Taylor series of the quasi-polynomials, e^{-sT} included):
     a Fraction, or None for a pole at s = 0."""
     def taylor(m):
-        out = [Fraction(0)] * order
+        out = [Q(0)] * order
         for d, p in m.items():
             # p(s) e^{-ds} = sum_i p_i s^i * sum_k (-d)^k s^k / k!
-            ek = [Fraction(1)]
+            ek = [Q(1)]
             for k in range(1, order):
                 ek.append(ek[-1] * (-d) / k)
-            for i, c in enumerate(p):
+            for i, c in enumerate(qp.coeffs(p)):
                 if c and i < order:
                     for k in range(order - i):
                         out[i + k] += c * ek[k]
@@ -68,11 +69,11 @@ def value_at_zero(q: Quasi, order: int = 24):
     kn = next((i for i, c in enumerate(n) if c), None)
     kd = next((i for i, c in enumerate(d) if c), None)
     if kn is None:
-        return Fraction(0)
+        return Q(0)
     if kd is None or kn < kd:
         return None
     if kn > kd:
-        return Fraction(0)
+        return Q(0)
     return n[kn] / d[kd]
 
 
@@ -89,12 +90,12 @@ def _merge_poles(res) -> list[tuple[complex, int]]:
 
 
 def _zeros(q: Quasi) -> tuple:
-    if not q.delay_free_den or set(q.num) != {Fraction(0)}:
+    if not q.delay_free_den or set(q.num) != {0}:
         return ()
-    N = q.num[Fraction(0)]
+    N = q.num[next(iter(q.num))]
     if qp.degree(N) <= 0:
         return ()
-    return tuple(complex(z) for z in np.roots([float(c) for c in reversed(N)]))
+    return tuple(complex(z) for z in np.roots([float(c) for c in reversed(qp.coeffs(N))]))
 
 
 def _initial_value(resY):

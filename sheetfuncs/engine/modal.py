@@ -24,6 +24,7 @@ from math import comb
 
 from . import limits
 from . import qpoly as qp
+from .qpoly import Q
 from .numbers import NUMERIC_DPS, Surd, to_float, to_mp
 
 
@@ -72,7 +73,7 @@ def _groups(P1: tuple, Q: tuple, f: tuple, m: int) -> list[tuple[int, tuple]]:
     rest = qp.divmod_(Q, fm)[0]
     if qp.degree(rest) == 0:
         A = qp.rem(P1, fm)
-        A = qp.scale(A, 1 / rest[0])
+        A = qp.scale(A, 1 / qp.coeff(rest, 0))
     else:
         u, _v, h = qp.gcdex(rest, fm)          # u*rest + v*fm = 1
         A = qp.rem(qp.mul(P1, u), fm)
@@ -84,31 +85,33 @@ def _groups(P1: tuple, Q: tuple, f: tuple, m: int) -> list[tuple[int, tuple]]:
     return out
 
 
-def decompose(P: tuple, Q: tuple, factors=None) -> Modal:
+def decompose(P, Qd, factors=None) -> Modal:
     """Partial fractions of P/Q (Q not zero); ``factors`` of Q may be given."""
-    if not Q:
+    if qp.is_zero(Qd):
         raise ZeroDivisionError("the denominator is zero")
-    c = 1 / Q[-1]
-    P, Q = qp.scale(P, c), qp.scale(Q, c)
+    c = 1 / qp.lc(Qd)
+    P, Qd = qp.scale(P, c), qp.scale(Qd, c)
     if factors is None:
-        g = qp.gcd(P, Q) if P else qp.ONE
+        g = qp.gcd(P, Qd) if not qp.is_zero(P) else qp.ONE
         if qp.degree(g) > 0:
-            P, Q = qp.divmod_(P, g)[0], qp.divmod_(Q, g)[0]
-    direct, P1 = qp.divmod_(P, Q)
+            P, Qd = qp.divmod_(P, g)[0], qp.divmod_(Qd, g)[0]
+    direct, P1 = qp.divmod_(P, Qd)
+    direct = tuple(qp.coeffs(direct))
     real, pairs, groups, numeric_groups = [], [], [], []
     exact = True
-    if P1:
-        for f, m in (factors if factors is not None else qp.factor(Q)):
+    if not qp.is_zero(P1):
+        for f, m in (factors if factors is not None else qp.factor(Qd)):
             limits.check()
-            gr = _groups(P1, Q, f, m)
+            gr = _groups(P1, Qd, f, m)
             d = qp.degree(f)
             if d <= 2:
-                groups.extend(Group(r, f, k) for k, r in gr if r)
+                groups.extend(Group(tuple(qp.coeffs(r)), tuple(qp.coeffs(f)), k)
+                              for k, r in gr if not qp.is_zero(r))
             if d == 1:
-                coeffs = [Fraction(0)] * m
+                coeffs = [Q(0)] * m
                 for k, r in gr:
-                    coeffs[k - 1] = r[0] if r else Fraction(0)
-                real.append(RealMode(-f[0], _trim(coeffs)))
+                    coeffs[k - 1] = qp.coeff(r, 0) if not qp.is_zero(r) else Q(0)
+                real.append(RealMode(-qp.coeff(f, 0), _trim(coeffs)))
             elif d == 2:
                 _quadratic(f, gr, m, real, pairs)
             else:
@@ -134,7 +137,7 @@ def _binom_neg(k, n):
 
 def _quadratic(f, gr, m, real, pairs):
     """Exact terms of an irreducible monic quadratic s^2 + b s + c."""
-    c0, b = f[0], f[1]
+    c0, b = qp.coeff(f, 0), qp.coeff(f, 1)
     alpha = -b / 2
     disc = b * b / 4 - c0
     sigma = -1 if disc < 0 else 1
@@ -148,15 +151,15 @@ def _quadratic(f, gr, m, real, pairs):
         return (a[0] * bb[0] + sigma * (a[1] * bb[1]), a[0] * bb[1] + a[1] * bb[0])
 
     for k, r in gr:
-        if not r:
+        if qp.is_zero(r):
             continue
-        A = r[1] if len(r) == 2 else Fraction(0)
-        B = r[0]
+        A = qp.coeff(r, 1) if qp.degree(r) == 1 else Q(0)
+        B = qp.coeff(r, 0)
         apb = (Surd(A * alpha + B, 0, W), one * A)
         b_prev = None
         for n in range(k):
             mm = k + n
-            sc = Fraction(_binom_neg(k, n), 2 ** mm)
+            sc = Q(_binom_neg(k, n), 2 ** mm)
             mag = Surd(sc / W ** (mm // 2), 0, W) if mm % 2 == 0 else \
                 Surd(0, sc / W ** ((mm + 1) // 2), W)
             jr = mm % 4 if sigma == -1 else mm % 2
@@ -178,11 +181,11 @@ def _quadratic(f, gr, m, real, pairs):
         real.append(RealMode(_norm(Surd(alpha, -1, W)), _trim(lo)))
 
 
-def _square_root(q: Fraction):
+def _square_root(q):
     from math import isqrt
-    a, b = q.numerator, q.denominator
+    a, b = int(q.numerator), int(q.denominator)
     ra, rb = isqrt(a), isqrt(b)
-    return Fraction(ra, rb) if ra * ra == a and rb * rb == b else None
+    return Q(ra, rb) if ra * ra == a and rb * rb == b else None
 
 
 def _norm(x):
@@ -230,6 +233,30 @@ def polish_roots(coeffs_mp, dps=NUMERIC_DPS):
     return roots
 
 
+def exact_roots(f, dps=NUMERIC_DPS):
+    """Roots of an exact polynomial (qpoly) at ``dps`` digits as mpmath numbers (mpc):
+    ball arithmetic from flint when available (the radius is checked), else companion
+    roots polished by Newton steps on the exact coefficients."""
+    import mpmath
+    if qp.BACKEND == "flint":
+        import flint
+        old = flint.ctx.prec
+        flint.ctx.prec = int(dps * 3.33) + 40
+        try:
+            found = f.complex_roots()
+        finally:
+            flint.ctx.prec = old
+        out = []
+        with mpmath.workdps(dps):
+            for z, m in found:
+                re_ = mpmath.mpf(z.real.mid().str(dps + 5, radius=False))
+                im_ = mpmath.mpf(z.imag.mid().str(dps + 5, radius=False))
+                out.extend([mpmath.mpc(re_, im_)] * int(m))
+        return out
+    with mpmath.workdps(dps):
+        return polish_roots([to_mp(c) for c in reversed(qp.coeffs(f))], dps)
+
+
 def _taylor(coeffs, z, n):
     """First n Taylor coefficients (ascending) at z of a polynomial (highest first)."""
     import mpmath
@@ -273,8 +300,8 @@ def _deflate(coeffs, z):
 def _numeric(f, gr, m, real, pairs, numeric_groups):
     import mpmath
     with mpmath.workdps(NUMERIC_DPS):
-        coeffs = [to_mp(c) for c in reversed(f)]          # exact -> 60 digits, highest first
-        roots = polish_roots(coeffs)
+        coeffs = [to_mp(c) for c in reversed(qp.coeffs(f))]   # exact -> 60 digits, highest first
+        roots = exact_roots(f)
         tiny = mpmath.mpf(10) ** (-(NUMERIC_DPS - 10))
         for z in roots:
             is_real = abs(z.imag) <= abs(z) * tiny
@@ -285,9 +312,9 @@ def _numeric(f, gr, m, real, pairs, numeric_groups):
             g = _deflate(coeffs, z)
             acc = [mpmath.mpc(0)] * m
             for k, r in gr:
-                if not r:
+                if qp.is_zero(r):
                     continue
-                rc = [to_mp(c) for c in reversed(r)]
+                rc = [to_mp(c) for c in reversed(qp.coeffs(r))]
                 for j, c in enumerate(laurent(rc, g, z, k)):     # multiplies 1/(s-z)^(k-j)
                     acc[k - j - 1] += c
             if is_real:

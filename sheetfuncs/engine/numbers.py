@@ -13,6 +13,11 @@ from __future__ import annotations
 
 import math
 from fractions import Fraction
+from functools import lru_cache
+
+from .qpoly import RATIONAL, Q
+
+_RAT = (Fraction,) + RATIONAL
 
 #: working precision (decimal digits) of numeric roots and residues
 NUMERIC_DPS = 60
@@ -23,7 +28,7 @@ class Surd:
     __slots__ = ("p", "q", "W")
 
     def __init__(self, p, q, W):
-        self.p, self.q, self.W = Fraction(p), Fraction(q), Fraction(W)
+        self.p, self.q, self.W = Q(p), Q(q), Q(W)
 
     def _c(self, o):
         if isinstance(o, Surd):
@@ -78,7 +83,7 @@ def _is_mp(x) -> bool:
 
 
 def is_exact(x) -> bool:
-    return isinstance(x, (int, Fraction, Surd))
+    return isinstance(x, (int, Surd) + _RAT)
 
 
 def to_mp(x, dps: int | None = None):
@@ -88,13 +93,12 @@ def to_mp(x, dps: int | None = None):
         with mpmath.workdps(dps):
             return to_mp(x)
     if isinstance(x, Surd):
-        out = mpmath.mpf(x.p.numerator) / x.p.denominator
+        out = to_mp(x.p)
         if x.q:
-            out += (mpmath.mpf(x.q.numerator) / x.q.denominator) * \
-                mpmath.sqrt(mpmath.mpf(x.W.numerator) / x.W.denominator)
+            out += to_mp(x.q) * mpmath.sqrt(to_mp(x.W))
         return out
-    if isinstance(x, Fraction):
-        return mpmath.mpf(x.numerator) / x.denominator
+    if isinstance(x, _RAT):
+        return mpmath.mpf(int(x.numerator)) / int(x.denominator)
     if isinstance(x, int):
         return mpmath.mpf(x)
     return +x
@@ -102,7 +106,7 @@ def to_mp(x, dps: int | None = None):
 
 def to_float(x) -> float:
     """x rounded to the nearest double (surds summed in extended precision first)."""
-    if isinstance(x, Fraction):
+    if isinstance(x, _RAT):
         return float(x)           # correctly rounded
     if isinstance(x, int):
         return float(x)
@@ -120,33 +124,45 @@ def text(x) -> str:
     """SymPy syntax of an exact or numeric value (numeric: 17 significant digits)."""
     if isinstance(x, int):
         return str(x)
-    if isinstance(x, Fraction):
-        return str(x.numerator) if x.denominator == 1 else f"{x.numerator}/{x.denominator}"
+    if isinstance(x, _RAT):
+        n, d = int(x.numerator), int(x.denominator)
+        return str(n) if d == 1 else f"{n}/{d}"
     if isinstance(x, Surd):
         if not x.q:
             return text(x.p)
-        k, core = _square_part(x.W.numerator * x.W.denominator)
-        q = x.q * Fraction(k, x.W.denominator)          # q sqrt(W) = q k / den * sqrt(core)
+        k, core = _square_part(int(x.W.numerator) * int(x.W.denominator))
+        q = x.q * Q(k, int(x.W.denominator))          # q sqrt(W) = q k / den * sqrt(core)
         root = f"sqrt({core})"
         neg = q < 0
         a = -q if neg else q
-        body = root if a == 1 else (f"{root}/{a.denominator}" if a.numerator == 1 else
-                                    f"{a.numerator}*{root}" + (f"/{a.denominator}" if a.denominator != 1 else ""))
+        an, ad = int(a.numerator), int(a.denominator)
+        body = root if a == 1 else (f"{root}/{ad}" if an == 1 else
+                                    f"{an}*{root}" + (f"/{ad}" if ad != 1 else ""))
         if not x.p:
             return ("-" if neg else "") + body
         return f"{text(x.p)} {'-' if neg else '+'} {body}"
     return repr(float(x))
 
 
+_SMALL_PRIMES = [p for p in range(2, 200) if all(p % q for q in range(2, int(p ** 0.5) + 1))]
+
+
+@lru_cache(maxsize=4096)
 def _square_part(n: int) -> tuple[int, int]:
-    """n = k^2 * core with core square-free as far as trial division to 10^4 finds."""
+    """n = k^2 * core, the square factors found by small primes and a final square test
+    (the text stays exact either way; this only makes it shorter)."""
+    from math import isqrt
     k, core = 1, n
-    d = 2
-    while d * d <= core and d < 10_000:
-        while core % (d * d) == 0:
-            core //= d * d
+    for d in _SMALL_PRIMES:
+        dd = d * d
+        if dd > core:
+            break
+        while core % dd == 0:
+            core //= dd
             k *= d
-        d += 1
+    r = isqrt(core)
+    if r * r == core:
+        return k * r, 1
     return k, core
 
 
@@ -160,5 +176,5 @@ def sign(x) -> int:
         if sp_ == 0 or sp_ == sq:
             return sq if sp_ == 0 else sp_
         return sp_ if x.p * x.p > x.q * x.q * x.W else sq
-    v = x if isinstance(x, (int, Fraction)) else float(x)
+    v = x if isinstance(x, (int,) + _RAT) else float(x)
     return (v > 0) - (v < 0)

@@ -14,6 +14,7 @@ from fractions import Fraction
 from typing import Mapping
 
 from . import qpoly as qp
+from .qpoly import Q
 from .parse import FUNCTIONS, MAX_DEGREE, MAX_EXPONENT, MAX_NUMBER_EXPONENT, _Parser, check_param_name
 from ..errors import LimitError, ParameterError
 
@@ -23,19 +24,24 @@ class NotQuasi(Exception):
 
 
 def _mono_mul(a: dict, b: dict) -> dict:
+    if len(a) == 1 and len(b) == 1:
+        (da, pa), = a.items()
+        (db, pb), = b.items()
+        p = qp.mul(pa, pb)
+        return {da + db: p} if not qp.is_zero(p) else {}
     out: dict = {}
     for da, pa in a.items():
         for db, pb in b.items():
             d = da + db
             out[d] = qp.add(out.get(d, qp.ZERO), qp.mul(pa, pb))
-    return {d: p for d, p in out.items() if p}
+    return {d: p for d, p in out.items() if not qp.is_zero(p)}
 
 
 def _mono_add(a: dict, b: dict) -> dict:
     out = dict(a)
     for d, p in b.items():
         out[d] = qp.add(out.get(d, qp.ZERO), p)
-    return {d: p for d, p in out.items() if p}
+    return {d: p for d, p in out.items() if not qp.is_zero(p)}
 
 
 def _degree(m: dict) -> int:
@@ -54,33 +60,33 @@ class Quasi:
     @classmethod
     def constant(cls, c) -> "Quasi":
         p = qp.const(c)
-        return cls({Fraction(0): p} if p else {}, {Fraction(0): qp.ONE})
+        return cls({Q(0): p} if not qp.is_zero(p) else {}, {Q(0): qp.ONE})
 
     @classmethod
     def s(cls) -> "Quasi":
-        return cls({Fraction(0): qp.X}, {Fraction(0): qp.ONE})
+        return cls({Q(0): qp.X}, {Q(0): qp.ONE})
 
     @classmethod
-    def delay(cls, T: Fraction) -> "Quasi":
-        return cls({Fraction(T): qp.ONE}, {Fraction(0): qp.ONE})
+    def delay(cls, T) -> "Quasi":
+        return cls({Q(T): qp.ONE}, {Q(0): qp.ONE})
 
     # queries ----------------------------------------------------------------
     @property
     def is_zero(self) -> bool:
         return not self.num
 
-    def constant_value(self) -> Fraction | None:
+    def constant_value(self):
         """The value when the expression is a plain number, else None."""
         if not self.num:
-            return Fraction(0)
-        if set(self.num) == {0} and set(self.den) == {0} and len(self.num[0]) == 1 \
-                and len(self.den[0]) == 1:
-            return self.num[0][0] / self.den[0][0]
+            return Q(0)
+        if set(self.num) == {0} and set(self.den) == {0} and qp.degree(self.num[0]) == 0 \
+                and qp.degree(self.den[0]) == 0:
+            return qp.coeff(self.num[0], 0) / qp.coeff(self.den[0], 0)
         return None
 
     @property
     def delay_free_den(self) -> bool:
-        return set(self.den) == {Fraction(0)}
+        return set(self.den) == {0}
 
     def degree(self) -> int:
         return max(_degree(self.num), _degree(self.den))
@@ -91,7 +97,7 @@ class Quasi:
         if not den:
             raise ZeroDivisionError("division by zero")
         if not num:
-            return Quasi({}, {Fraction(0): qp.ONE})
+            return Quasi({}, {Q(0): qp.ONE})
         if len(den) == 1:
             (b, D), = den.items()
             if b != 0:                                   # e^{-bs} in the denominator: an advance
@@ -104,11 +110,11 @@ class Quasi:
             if qp.degree(g) > 0:
                 D = qp.divmod_(D, g)[0]
                 num = {d: qp.divmod_(p, g)[0] for d, p in num.items()}
-            c = 1 / D[-1]
+            c = 1 / qp.lc(D)
             if c != 1:
                 D = qp.scale(D, c)
                 num = {d: qp.scale(p, c) for d, p in num.items()}
-            den = {Fraction(0): D}
+            den = {Q(0): D}
         else:
             g = None
             for p in list(den.values()) + list(num.values()):
@@ -122,7 +128,7 @@ class Quasi:
             if b != 0:
                 den = {d - b: p for d, p in den.items()}
                 num = {d - b: p for d, p in num.items()}
-            c = 1 / den[Fraction(0)][-1] if Fraction(0) in den else 1 / den[max(den)][-1]
+            c = 1 / qp.lc(den[0]) if 0 in den else 1 / qp.lc(den[max(den)])
             den = {d: qp.scale(p, c) for d, p in den.items()}
             num = {d: qp.scale(p, c) for d, p in num.items()}
         out = Quasi(num, den)
@@ -170,21 +176,50 @@ class Quasi:
         return f"Quasi(num={self.num}, den={self.den})"
 
 
+def _is_poly(x) -> bool:
+    return not isinstance(x, Quasi)
+
+
+def _lift(x) -> "Quasi":
+    """A plain polynomial as a Quasi."""
+    if isinstance(x, Quasi):
+        return x
+    return Quasi({Q(0): x} if not qp.is_zero(x) else {}, {Q(0): qp.ONE})
+
+
+def _const_of(x):
+    """The value of a constant node, else None."""
+    if isinstance(x, Quasi):
+        return x.constant_value()
+    if qp.is_zero(x):
+        return Q(0)
+    return qp.coeff(x, 0) if qp.degree(x) == 0 else None
+
+
+def _check_degree(p):
+    if qp.degree(p) > MAX_DEGREE:
+        raise LimitError("polynomial degree", qp.degree(p), MAX_DEGREE)
+    return p
+
+
 class QuasiBuilder:
-    """Grammar nodes as :class:`Quasi` (see ``parse._Parser``); NotQuasi otherwise."""
+    """Grammar nodes as polynomials (while they are) or :class:`Quasi`; NotQuasi otherwise.
+
+    Sums and products of polynomials stay plain polynomials of the backend (C
+    speed with flint); a division or a delay makes a Quasi."""
 
     def __init__(self, params: Mapping | None):
         self.params = params or {}
         self._values: dict = {}
 
     def number(self, frac):
-        return Quasi.constant(frac)
+        return qp.const(Q(frac))
 
     def imag(self, frac):
         raise NotQuasi("complex number")
 
     def var(self):
-        return Quasi.s()
+        return qp.X
 
     def constant(self, low):
         raise NotQuasi(low)
@@ -194,78 +229,94 @@ class QuasiBuilder:
             raise NotQuasi(f"symbolic parameter {name}")
         if name not in self._values:
             self._values[name] = param_fraction(name, self.params[name])
-        return Quasi.constant(self._values[name])
+        return qp.const(self._values[name])
 
     def add(self, a, b):
-        return a + b
+        if _is_poly(a) and _is_poly(b):
+            return qp.add(a, b)
+        return _lift(a) + _lift(b)
 
     def sub(self, a, b):
-        return a - b
+        if _is_poly(a) and _is_poly(b):
+            return qp.sub(a, b)
+        return _lift(a) - _lift(b)
 
     def mul(self, a, b):
-        return a * b
+        if _is_poly(a) and _is_poly(b):
+            return _check_degree(qp.mul(a, b))
+        return _lift(a) * _lift(b)
 
     def div(self, a, b):
-        return a / b
+        c = _const_of(b) if _is_poly(b) else None
+        if c is not None and c != 0 and _is_poly(a):
+            return qp.scale(a, 1 / c)
+        return _lift(a) / _lift(b)
 
     def neg(self, a):
-        return -a
+        return qp.neg(a) if _is_poly(a) else -a
 
     def is_zero(self, a):
-        return a.is_zero
+        return qp.is_zero(a) if _is_poly(a) else a.is_zero
 
     def is_whole(self, a):
-        v = a.constant_value()
+        v = _const_of(a)
         return v is not None and v.denominator == 1 and v >= 0
 
     def pow(self, base, exponent, tok, parser):
-        e = exponent.constant_value()
+        e = _const_of(exponent)
         if e is None or e.denominator != 1:
             raise NotQuasi("power")
         n = int(e)
-        holds_s = base.degree() > 0 or len(base.num) > 1 or set(base.num) != {0} or \
-            set(base.den) != {0}
+        if _is_poly(base):
+            holds_s = qp.degree(base) > 0
+        else:
+            holds_s = base.degree() > 0 or len(base.num) > 1 or set(base.num) != {0} or \
+                set(base.den) != {0}
         limit = MAX_EXPONENT if holds_s else MAX_NUMBER_EXPONENT
         if abs(n) > limit:
             raise LimitError(f"the exponent at position {tok[2] + 1}", abs(n), limit)
-        if abs(n) * max(base.degree(), 0) > MAX_DEGREE:
-            raise LimitError("polynomial degree", abs(n) * base.degree(), MAX_DEGREE)
-        if base.is_zero and n < 0:
+        deg = qp.degree(base) if _is_poly(base) else base.degree()
+        if abs(n) * max(deg, 0) > MAX_DEGREE:
+            raise LimitError("polynomial degree", abs(n) * deg, MAX_DEGREE)
+        if self.is_zero(base) and n < 0:
             parser.error("division by zero", tok)
-        return base ** n
+        if _is_poly(base) and n >= 0:
+            return qp.power(base, n)
+        return _lift(base) ** n
 
     def call(self, low, args, tok, parser):
         if low != "exp":
             raise NotQuasi(low)
         (a,) = args
-        if not a.delay_free_den or set(a.num) - {Fraction(0)} or qp.degree(a.den[0]) != 0:
-            raise NotQuasi("exp of a non-polynomial")
-        p = qp.scale(a.num.get(Fraction(0), qp.ZERO), 1 / a.den[0][0])
-        if qp.degree(p) > 1 or (p and p[0] != 0):
+        if not _is_poly(a):
+            if not a.delay_free_den or set(a.num) - {0} or qp.degree(a.den[0]) != 0:
+                raise NotQuasi("exp of a non-polynomial")
+            a = qp.scale(a.num.get(0, qp.ZERO), 1 / qp.coeff(a.den[0], 0))
+        if qp.degree(a) > 1 or (not qp.is_zero(a) and qp.coeff(a, 0) != 0):
             raise NotQuasi("exp with a constant factor or a non-linear exponent")
-        c1 = p[1] if len(p) > 1 else Fraction(0)
+        c1 = qp.coeff(a, 1) if qp.degree(a) >= 1 else Q(0)
         return Quasi.delay(-c1)
 
 
-def param_fraction(name: str, value) -> Fraction:
+def param_fraction(name: str, value):
     """A parameter value as an exact fraction, or NotQuasi when it is not rational."""
     if isinstance(value, bool) or value is None:
         raise ParameterError(f"parameter '{name}' has no numeric value", name)
     if isinstance(value, int):
-        return Fraction(value)
-    if isinstance(value, Fraction):
-        return value
+        return Q(value)
+    if isinstance(value, (Fraction,) + qp.RATIONAL):
+        return Q(value)
     if isinstance(value, float):
         if value != value or value in (float("inf"), float("-inf")):
             raise ParameterError(f"parameter '{name}' is not a finite number", name)
         from .parse import LiteralRangeError, exact_fraction
         try:
-            return exact_fraction(repr(value))
+            return Q(exact_fraction(repr(value)))
         except LiteralRangeError as exc:
             raise ParameterError(f"parameter '{name}': {exc.reason}", name) from exc
     if isinstance(value, str):
         try:
-            q = _Parser(value.strip(), "_novar", frozenset(), QuasiBuilder({})).parse()
+            q = _lift(_Parser(value.strip(), "_novar", frozenset(), QuasiBuilder({})).parse())
         except NotQuasi:
             q = None
         except ParameterError:
@@ -279,7 +330,7 @@ def param_fraction(name: str, value) -> Fraction:
     from .parse import param_value
     sym = param_value(name, value)
     if getattr(sym, "is_Rational", False):
-        return Fraction(int(sym.p), int(sym.q))
+        return Q(int(sym.p), int(sym.q))
     raise NotQuasi(f"parameter {name} is not rational")
 
 
@@ -289,6 +340,6 @@ def read_quasi(text: str, params: Mapping | None = None) -> Quasi:
         for name in params:
             check_param_name(name)
     try:
-        return _Parser(text.strip(), "s", FUNCTIONS, QuasiBuilder(params)).parse()
+        return _lift(_Parser(text.strip(), "s", FUNCTIONS, QuasiBuilder(params)).parse())
     except ZeroDivisionError:
         raise NotQuasi("division by zero after simplification") from None
