@@ -189,8 +189,9 @@ def _run(args):
         result = run_demo(args.dir)
         return result.to_dict() if args.json else result.text()
     from . import api
-    from . import report
     params = _params(args.param)
+    if not args.json:
+        from . import report
     if args.digits is not None and not 1 <= args.digits <= 30:
         raise _UsageError("--digits must be between 1 and 30")
     if args.command == "invert":

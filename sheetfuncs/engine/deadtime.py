@@ -20,7 +20,7 @@ from fractions import Fraction
 
 from . import limits
 from . import qpoly as qp
-from .evaluate import Evaluator, Piece
+from .modal import Piece
 from .numbers import text
 from ..errors import LimitError, UnsupportedExpressionError
 
@@ -173,12 +173,13 @@ class Series:
                                           tuple(c.imag for c in coeffs)))
         return Modal(tuple(qp.coeffs(direct)), tuple(reals), tuple(pairs), (), False)
 
-    def evaluator(self, horizon: float | None) -> Evaluator:
+    def evaluator(self, horizon: float | None):
         """An evaluator valid on [0, horizon]: the series re-expanded window by window."""
         horizon = float(horizon) if horizon is not None else max(self._horizon, 0.0)
         key = ("windows", horizon)
         ev = self._cache.get(key)
         if ev is None:
+            from .evaluate import Evaluator
             ev = self._cache[key] = Evaluator(windows(self.pieces_upto(horizon)))
         return ev
 

@@ -11,30 +11,27 @@ point is evaluated again with mpmath at ``20 + log10(condition)`` digits from
 the exact (or 60-digit) coefficients.  So every value carries about 1e-12
 relative error or better; at an exact zero of f the error is below 1e-(digits)
 times the largest term.
+
+Near t = 0 (within ``TAYLOR_REACH / max|pole|`` of a piece's start) such points
+are first tried with the Taylor series of the piece, whose coefficients are the
+exact Markov parameters of the rational function (``Modal.markov``): there the
+series has no cancellation, and it is vectorised.
 """
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
-
 import numpy as np
 
 from . import limits
-from .modal import Modal, PairMode, RealMode
+from .modal import Modal, PairMode, Piece, RealMode  # noqa: F401 - Piece re-exported
 from .numbers import to_float, to_mp
 
 #: above this ratio of sum-of-magnitudes to |value|, a point is redone in extended precision
 COND_LIMIT = 1e4
 MAX_DPS = 90
-
-
-@dataclass(frozen=True)
-class Piece:
-    """One delayed rational piece: ``modal`` applies to t - delay for t >= delay."""
-    delay: object                # Fraction (exact) or float
-    modal: Modal
-    sign: int = 1
-    until: float | None = None   # the piece applies for delay <= t < until (None: for ever)
+#: the Taylor series at a piece's start is used for rho * (t - start) <= TAYLOR_REACH
+TAYLOR_REACH = 3.0
+TAYLOR_TERMS = 60
 
 
 def _lgamma_table(n):
@@ -47,6 +44,29 @@ class Evaluator:
     def __init__(self, pieces):
         self.pieces = tuple(pieces)
         self._compiled = [self._compile(p) for p in self.pieces]
+        self._taylor: dict = {}
+
+    def _taylor_of(self, i):
+        """(rho, b_k) with f(t0 + tau) = sum b_k (rho tau)^k near the start of piece i."""
+        if i not in self._taylor:
+            piece = self.pieces[i]
+            out = None
+            mags = [abs(complex(to_float(m.pole))) for m in piece.modal.real] + \
+                [abs(complex(to_float(m.alpha), to_float(m.omega))) for m in piece.modal.pairs]
+            ms = piece.modal.markov(TAYLOR_TERMS) if mags else []
+            if ms:
+                from .qpoly import Q
+                rho = max(max(mags), 1e-300)
+                # b_k = m_k / (k! rho^k) in exact arithmetic of a rational rho, then to floats
+                rq = Q(*float(rho).as_integer_ratio())
+                b, scale = [], Q(1)
+                for k, m in enumerate(ms):
+                    if k:
+                        scale = scale * rq * k
+                    b.append(piece.sign * float(m / scale))
+                out = (float(rho), np.array(b[::-1]), np.abs(np.array(b[::-1])))
+            self._taylor[i] = out
+        return self._taylor[i]
 
     @staticmethod
     def _compile(piece):
@@ -61,12 +81,13 @@ class Evaluator:
         y = np.zeros_like(t)
         mag = np.zeros_like(t)
         with np.errstate(all="ignore"):
-            for delay, until, sign, reals, pairs in self._compiled:
+            for index, (delay, until, sign, reals, pairs) in enumerate(self._compiled):
                 m = (t >= delay) & (t < until)
                 if not m.any():
                     continue
                 tt = t[m] - delay
-                logt = np.log(tt)
+                logt = np.log(tt) if any(len(c) > 1 for _, c in reals) or \
+                    any(len(x) > 1 for _, _, x, _ in pairs) else None
                 acc = np.zeros_like(tt)
                 amag = np.zeros_like(tt)
                 for pole, coeffs in reals:
@@ -74,7 +95,7 @@ class Evaluator:
                         if c == 0:
                             continue
                         if k == 0:
-                            e = np.exp(pole * tt)
+                            e = np.exp(pole * tt) if pole != 0 else 1.0
                         else:
                             e = np.exp(pole * tt + k * logt - math.lgamma(k + 1))
                             e = np.where(tt == 0, 0.0, e)
@@ -92,7 +113,19 @@ class Evaluator:
                             e = np.where(tt == 0, 0.0, e)
                         acc += e * (x * cw - yy * sw)
                         amag += e * math.hypot(x, yy)
-                y[m] += sign * acc
+                acc = sign * acc
+                near = amag > COND_LIMIT * np.abs(acc)
+                if near.any():
+                    ts = self._taylor_of(index)
+                    if ts is not None:
+                        rho, b, babs = ts
+                        u = rho * tt
+                        use = near & (u <= TAYLOR_REACH)
+                        if use.any():
+                            uu = u[use]
+                            acc[use] = np.polyval(b, uu)
+                            amag[use] = np.polyval(babs, uu)
+                y[m] += acc
                 mag[m] += amag
         return y, mag
 

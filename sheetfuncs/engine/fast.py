@@ -20,8 +20,7 @@ from typing import Mapping
 
 from . import limits
 from . import qpoly as qp
-from .evaluate import Evaluator, Piece
-from .modal import Modal, decompose
+from .modal import Modal, Piece, decompose
 from .numbers import is_exact, text, to_float
 from .quasi import NotQuasi, Quasi, read_quasi
 from ..errors import UnsupportedExpressionError
@@ -116,11 +115,12 @@ class FastResult:
         return self._legacy().pieces if self.series is None else ()
 
     # evaluation ---------------------------------------------------------------
-    def evaluator(self, horizon: float | None = None) -> Evaluator:
+    def evaluator(self, horizon: float | None = None):
         if self.series is not None:
             return self.series.evaluator(horizon)
         ev = self.derived.get("evaluator")
         if ev is None:
+            from .evaluate import Evaluator
             ev = self.derived["evaluator"] = Evaluator(self.modal_pieces)
         return ev
 

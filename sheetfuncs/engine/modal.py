@@ -58,6 +58,27 @@ class Modal:
     groups: tuple                # Group (exact factors) / numeric ones
     exact: bool
     numeric_groups: tuple = field(default=())   # (numerator mp coeffs, base mp coeffs, power)
+    #: the strictly proper part P1/Q exactly (for the Taylor series at small t), when known
+    proper: tuple | None = field(default=None, compare=False)
+
+    def markov(self, n: int) -> list:
+        """First n Taylor coefficients of f at t = 0+ (f = sum m_k t^k / k!), exactly:
+        the coefficients of P1/Q in powers of 1/s, by power-series division."""
+        if self.proper is None:
+            return []
+        P1, Qd = self.proper
+        d = qp.degree(Qd)
+        qs = list(reversed(qp.coeffs(Qd)))                 # Q~(x) = x^d Q(1/x), qs[0] = lc
+        pc = qp.coeffs(P1)
+        ps = [pc[d - 1 - i] if 0 <= d - 1 - i < len(pc) else Q(0) for i in range(d)]
+        out = []
+        inv = 1 / qs[0]
+        for k in range(n):
+            acc = ps[k] if k < len(ps) else Q(0)
+            for i in range(1, min(k, d) + 1):
+                acc -= qs[i] * out[k - i]
+            out.append(acc * inv)
+        return out
 
     def poles(self) -> list[tuple[object, object, int]]:
         """(re, im, multiplicity) with im >= 0 once per pair."""
@@ -65,6 +86,15 @@ class Modal:
         out += [(m.alpha, m.omega, len(m.xs)) for m in self.pairs]
         return out
 
+
+
+@dataclass(frozen=True)
+class Piece:
+    """One delayed rational piece: ``modal`` applies to t - delay for t >= delay."""
+    delay: object                # Fraction (exact) or float
+    modal: Modal
+    sign: int = 1
+    until: float | None = None   # the piece applies for delay <= t < until (None: for ever)
 
 
 def _groups(P1: tuple, Q: tuple, f: tuple, m: int) -> list[tuple[int, tuple]]:
@@ -121,7 +151,8 @@ def decompose(P, Qd, factors=None) -> Modal:
     pairs = [p for p in pairs if p.xs]
     real.sort(key=lambda r: to_float(r.pole))
     pairs.sort(key=lambda p: (to_float(p.alpha), to_float(p.omega)))
-    return Modal(direct, tuple(real), tuple(pairs), tuple(groups), exact, tuple(numeric_groups))
+    return Modal(direct, tuple(real), tuple(pairs), tuple(groups), exact, tuple(numeric_groups),
+                 (P1, Qd) if not qp.is_zero(P1) else None)
 
 
 def _trim(coeffs):
