@@ -34,7 +34,7 @@ def _limit(expr, point, direction="+"):
 
 
 def nonrational_figures(F, U, label, settle, lo, hi) -> dict:
-    from .figures import _no_step, time_figures
+    from .figcore import _no_step, time_figures
     Y = F * U
     free = sorted(str(x) for x in Y.free_symbols if x != S)
     if free:

@@ -62,7 +62,7 @@ class NumericInverse:
     expr: sp.Expr
     method: str = "Talbot"
     _parts: tuple = field(default=(), repr=False, compare=False)   # (delay, G, mpmath fn, numpy fn)
-    _verified: dict = field(default_factory=dict, repr=False, compare=False)   # "worst" -> rel. diff
+    _verified: dict = field(default_factory=dict, repr=False, compare=False)   # window -> rel. diff
 
     @classmethod
     def build(cls, F: sp.Expr) -> "NumericInverse":
@@ -121,13 +121,16 @@ class NumericInverse:
         return abs(self.value(t, "talbot") - self.value(t, "dehoog"))
 
     def verify(self, times) -> float:
-        """Largest relative disagreement of the two methods at up to 3 of ``times``;
-        raises SamplingError when above ``AGREEMENT``."""
+        """Largest relative disagreement of the two methods at up to 3 of ``times`` (the
+        first, middle and last of this evaluation window); raises SamplingError when above
+        ``AGREEMENT``.  Every new window is checked again: a pass on one range of t says
+        nothing about another."""
         pts = sorted({float(t) for t in times if t > 0 and all(abs(t - d) > 1e-3 for d, *_ in self._parts)})
-        if "worst" in self._verified:
-            return self._verified["worst"]
         if not pts:
             return 0.0
+        key = (round(pts[0], 12), round(pts[-1], 12), len(pts))
+        if key in self._verified:
+            return self._verified[key]
         probe = sorted({pts[0], pts[len(pts) // 2], pts[-1]})
         fast = self.values(np.array(probe))
         worst = 0.0
@@ -139,7 +142,7 @@ class NumericInverse:
                 raise SamplingError(
                     f"numerical inversion is unreliable here (Talbot {a:.6g} vs de Hoog {b:.6g} at "
                     f"t={t:g}); F(s) may have singularities off the negative real axis")
-        self._verified["worst"] = worst
+        self._verified[key] = worst
         return worst
 
 
