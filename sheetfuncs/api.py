@@ -80,14 +80,15 @@ def s_text(F) -> str:
     return sp.sstr(F)
 
 
-def excel_formula(result, cell: str = "A1", *, digits: int = 15, names=None) -> str:
-    from .printing import to_excel
+def excel_formula(result, cell: str = "A1", *, digits: int | None = None, names=None) -> str:
+    """A native spreadsheet formula of f(t) with t in ``cell``, always at full double
+    precision (``digits`` is accepted for compatibility and no longer lowers it)."""
+    from .printing import excel_result
     from .errors import UnsupportedExpressionError
     if result.f_t is None:
         raise UnsupportedExpressionError("no closed form: the result is numerical or a dead-time series, "
                                          "so there is no spreadsheet formula", "sample it instead")
-    kw = {"names": names} if names else {}
-    return to_excel(result.f_t, cell=cell, digits=digits, **kw)
+    return excel_result(result, cell, names=names)
 
 
 def latex(result, *, digits=None) -> str:

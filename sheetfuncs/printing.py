@@ -26,7 +26,7 @@ from sheetfuncs._types import T
 from sheetfuncs.errors import LimitError, ParameterError, UnsupportedExpressionError
 
 __all__ = ["round_numbers", "to_sympy_text", "to_display", "to_latex", "to_excel",
-           "EXCEL_FORMULA_MAX_CHARS"]
+           "display_result", "excel_result", "EXCEL_FORMULA_MAX_CHARS"]
 
 #: Excel refuses formulas longer than this (LibreOffice accepts the same).
 EXCEL_FORMULA_MAX_CHARS = 8192
@@ -485,3 +485,32 @@ def to_excel(expr, cell: str = "A1", digits: int = 15, causal: bool = True,
     if len(formula) > EXCEL_FORMULA_MAX_CHARS:
         raise LimitError("formula length", len(formula), EXCEL_FORMULA_MAX_CHARS)
     return formula
+
+
+# ----------------------------------------------------------------- results of the fast core
+
+def display_result(result, digits: int = 6) -> str:
+    """Human text of a result's f(t): printed from the modal terms when the fast core made
+    it (delays kept visible, noise dropped), else from the SymPy expression."""
+    digits = _check_digits(digits, allow_none=False)
+    if getattr(result, "is_fast", False) and result.series is None:
+        from sheetfuncs.engine.termtext import Display, time_text
+        return time_text(result.modal_pieces, Display(digits))
+    if result.f_t is None:
+        return "(no closed form)"
+    return to_display(result.f_t, digits=digits)
+
+
+def excel_result(result, cell: str = "A1", *, names=None) -> str:
+    """Spreadsheet formula ("=...") of a result's f(t) at full double precision (17
+    significant digits whatever the display digits), t read from ``cell``."""
+    cell = _check_ref(cell, "cell")
+    if getattr(result, "is_fast", False) and result.series is None and not names:
+        from sheetfuncs.engine.termtext import Excel, time_text
+        body = time_text(result.modal_pieces, Excel(cell))
+        formula = "=" + (f"IF({cell}<0,0,{body})" if body != "0" else "0")
+        if len(formula) > EXCEL_FORMULA_MAX_CHARS:
+            raise LimitError("formula length", len(formula), EXCEL_FORMULA_MAX_CHARS)
+        return formula
+    kw = {"names": names} if names else {}
+    return to_excel(result.f_t, cell=cell, digits=17, **kw)
