@@ -208,10 +208,14 @@ def inverse(expr, params=None, form=None, digits=None):
     res = api.invert(_expr(expr), params_of(params))
     form = _text(form, "text").lower()
     nd = _number(digits, "digits", 0, integer=True) or None
+    if getattr(res, "series", None) is not None:
+        return "(no finite closed form: a loop around a dead time, exact by the dead-time series; " \
+               "sample it with SF_RESPONSE)"
     if res.f_t is None:
         return f"(no closed form: numerical by {res.method.split('(')[-1].rstrip(')')})"
     if form == "text":
-        return to_display(res.f_t, digits=nd or 6)
+        from .printing import display_result
+        return display_result(res, digits=nd or 6)
     if form == "sympy":
         return to_sympy_text(res.f_t, digits=nd)
     if form == "latex":
@@ -293,12 +297,8 @@ def stability(expr, params=None):
 @cache.memo
 def _response_result(expr: str, input, params: dict):
     """The inverted response Y(s) = F(s) U(s), shared by every row of a sampled column."""
-    from .engine import limits
-    from .engine.invert import invert_expr
-    from .engine.sample import response_expr
-    Y = response_expr(expr, params, input or "impulse")
-    with limits.deadline(None):
-        return invert_expr(Y)
+    from .engine.sample import response_result
+    return response_result(expr, params, input or "impulse")
 
 
 @cell
