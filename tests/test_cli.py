@@ -102,3 +102,12 @@ def test_installed_command():
     proc = subprocess.run([sys.executable, "-m", "sheetfuncs.cli", "invert", "1/(s+1)", "--json"],
                           capture_output=True, text=True, timeout=120)
     assert proc.returncode == 0 and json.loads(proc.stdout)["f_t"] == "exp(-t)"
+
+
+def test_human_output_on_a_console_that_cannot_encode_delta():
+    # Windows with redirected output: an ASCII or cp1252 stdout must not crash the command
+    env = dict(__import__("os").environ, PYTHONIOENCODING="ascii")
+    proc = subprocess.run([sys.executable, "-m", "sheetfuncs.cli", "invert", "exp(-2s)/(s+1)+3"],
+                          capture_output=True, text=True, timeout=120, env=env)
+    assert proc.returncode == 0, proc.stderr
+    assert "Traceback" not in proc.stderr and "f(t)" in proc.stdout

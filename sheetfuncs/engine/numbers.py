@@ -18,6 +18,7 @@ from functools import lru_cache
 from .qpoly import RATIONAL, Q
 
 _RAT = (Fraction,) + RATIONAL
+_FAST = RATIONAL
 
 #: working precision (decimal digits) of numeric roots and residues
 NUMERIC_DPS = 60
@@ -28,7 +29,9 @@ class Surd:
     __slots__ = ("p", "q", "W")
 
     def __init__(self, p, q, W):
-        self.p, self.q, self.W = Q(p), Q(q), Q(W)
+        self.p = p if type(p) in _FAST else Q(p)
+        self.q = q if type(q) in _FAST else Q(q)
+        self.W = W if type(W) in _FAST else Q(W)
 
     def _c(self, o):
         if isinstance(o, Surd):

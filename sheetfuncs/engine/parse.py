@@ -150,8 +150,10 @@ class _Parser:
 
     # token helpers -------------------------------------------------------
     def peek(self, ahead: int = 0):
-        j = self.i + ahead
-        return self.tokens[j] if j < len(self.tokens) else None
+        try:
+            return self.tokens[self.i + ahead]
+        except IndexError:
+            return None
 
     def error(self, reason, tok=None):
         pos = tok[2] if tok else len(self.text)
@@ -163,9 +165,23 @@ class _Parser:
             self.error("the expression ends too early" if value is None
                        else f"missing '{value}' at the end")
         if value is not None and tok[1] != value:
+            self._comma_hint(tok)
             self.error(f"expected '{value}' but found '{tok[1]}'", tok)
         self.i += 1
         return tok
+
+    def _comma_hint(self, tok):
+        """'0,5' is a decimal comma: say so instead of a bare syntax error."""
+        if tok[1] != "," or self.i == 0:
+            return
+        prev = self.tokens[self.i - 1]
+        nxt = self.peek(1)
+        if prev[0] == "num" and nxt is not None and nxt[0] in ("num", "imag") \
+                and prev[2] + len(prev[1]) == tok[2] and tok[2] + 1 == nxt[2]:
+            digits = re.match(r"\d+", nxt[1])
+            frac = digits.group() if digits else nxt[1]
+            self.error(f"'{prev[1]},{frac}': use a decimal point ({prev[1]}.{frac}); "
+                       "commas only separate function arguments", tok)
 
     # grammar -------------------------------------------------------------
     def parse(self):
@@ -176,12 +192,7 @@ class _Parser:
         if tok is not None:
             if tok[1] == ")":
                 self.error("unmatched ')'", tok)
-            if tok[1] == ",":
-                prev = self.tokens[self.i - 1]
-                nxt = self.peek(1)
-                if prev[0] == "num" and nxt is not None and nxt[0] in ("num", "imag"):
-                    self.error(f"'{prev[1]},{nxt[1]}': use a decimal point ({prev[1]}.{nxt[1]}); "
-                               "commas only separate function arguments", tok)
+            self._comma_hint(tok)
             self.error(f"unexpected '{tok[1]}'", tok)
         return expr
 
@@ -299,7 +310,7 @@ class _Parser:
         reserved = {"s", "t"} - {self.var}
         if value in reserved:
             self.error(f"'{value}' cannot appear here (the variable is '{self.var}')", tok)
-        if value.lower() in ("i", "j"):
+        if value in ("i", "j"):
             self.error(f"'{value}' alone is not a name here: the imaginary unit is written after "
                        f"a number (2j); pick another parameter name", tok)
         if value.lower() in RESERVED_NAMES or value in RESERVED_EXACT:
@@ -406,7 +417,7 @@ def check_param_name(name) -> str:
     if not re.fullmatch(r"[A-Za-z][A-Za-z0-9]*", name) or keyword.iskeyword(name):
         raise ParameterError(f"parameter name '{name}' is not a plain name (letters and digits)", name)
     low = name.lower()
-    if name in ("s", "t") or low in ("i", "j") or low in CONSTANTS or low in TIME_FUNCTIONS \
+    if name in ("s", "t", "i", "j") or low in CONSTANTS or low in TIME_FUNCTIONS \
             or low in RESERVED_NAMES or name in RESERVED_EXACT:
         raise ParameterError(f"'{name}' is reserved and cannot be a parameter", name)
     return name

@@ -34,8 +34,11 @@ if _flint is not None:
 
     def Q(n, d=1):
         """An exact rational scalar of the active backend."""
-        if isinstance(n, _fmpq):
+        t = type(n)
+        if t is _fmpq:
             return n if d == 1 else n / d
+        if t is int:
+            return _fmpq(n, d)
         if isinstance(n, Fraction):
             return _fmpq(n.numerator, n.denominator * int(d))
         return _fmpq(int(n), int(d))

@@ -104,3 +104,48 @@ def test_never_evaluates_python():
         parse("open('/tmp/sheetfuncs_pwned','w')")
     import os
     assert not os.path.exists("/tmp/sheetfuncs_pwned")
+
+
+# ------------------------------------------------------------ inputs read as meant
+@pytest.mark.parametrize("text, fragment", [
+    ("1/(s+1)e^-2s", "parentheses, e.g. e^(-2s)"),       # not s*e^-2/(s+1)
+    ("10^-3s", "parentheses"),
+    ("s²+1", "write powers with ^"),
+    ("1/(0,5s+1)", "use a decimal point (0.5)"),
+    ("1e999/s", "outside the range of double precision"),
+    ("1/(s+1e-320)", "outside the range of double precision"),
+    ("1/(s+nan)", "reserved"), ("1/(s+inf)", "reserved"), ("1/(s+oo)", "reserved"),
+    ("1/(s+zoo)", "reserved"), ("1/(s+I)", "reserved"), ("1/(s+j)", "imaginary unit"),
+])
+def test_inputs_that_would_be_misread_are_refused_with_a_hint(text, fragment):
+    with pytest.raises(SheetfuncsError) as info:
+        parse(text)
+    assert fragment in str(info.value)
+
+
+def test_e_power_with_grouped_exponent_still_reads():
+    assert parse("e^(-2s)/(s+1)") == sp.exp(-2 * s) / (s + 1)
+    assert parse("(s+1)^2(s+2)") == (s + 1) ** 2 * (s + 2)        # an implicit product after ^2
+
+
+def test_imaginary_unit_after_a_number():
+    # conjugate factors multiply out to a real F(s): read exactly, inverted as usual
+    import sheetfuncs as sf
+    F = parse("1/((s+1+2j)(s+1-2j))")
+    assert sp.simplify(F - 1 / ((s + 1) ** 2 + 4)) == 0
+    a = sf.invert("1/((s+1+2j)(s+1-2j))").to_dict()
+    b = sf.invert("1/(s^2+2s+5)").to_dict()
+    assert a["terms"] == b["terms"]
+    with pytest.raises(SheetfuncsError, match="complex coefficient"):
+        sf.invert("1/(s+2j)")
+
+
+@pytest.mark.parametrize("name", ["nan", "inf", "oo", "zoo", "I", "E", "S", "N", "j", "i"])
+def test_reserved_parameter_names(name):
+    with pytest.raises(ParameterError):
+        parse("1/(s+a)", {name: 1})
+
+
+def test_time_constant_named_T_and_inertia_named_J_are_fine():
+    assert parse("1/(T s + 1)", {"T": 2}) == 1 / (2 * s + 1)
+    assert parse("1/(J s^2 + b s)", {"J": 2, "b": 1}) == 1 / (2 * s ** 2 + s)
