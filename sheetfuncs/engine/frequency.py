@@ -248,42 +248,49 @@ def _principal(x: float) -> float:
 
 def track_phase(values, w: np.ndarray, start_phase) -> np.ndarray:
     """Continuous phase of ``values`` (a function of w) at ``w`` (>= 0), tracked
-    from a small frequency below the smallest positive w on a grid refined
-    until every step turns by less than pi/4 (at most ``2^30`` refinements of a
-    step)."""
+    from a small frequency below the smallest positive w (where
+    ``start_phase(w_start)`` gives the phase) on a grid refined until every
+    step turns by less than pi/4."""
     w = np.asarray(w, dtype=float)
     if w.size == 0:
         return np.zeros(0)
     pos = w[w > 0]
     top = float(pos.max()) if pos.size else 1.0
     low = float(pos.min()) if pos.size else 1.0
-    w_start = min(low, top) * 1e-4
-    grid = np.unique(np.concatenate([[w_start], np.geomspace(w_start, top, 400) if top > w_start else [],
-                                     pos]))
+    w_start = low * 1e-4
+    base = np.unique(np.concatenate([[w_start], np.geomspace(w_start, top, 400), pos]))
+    grid, cont = tracked(values, base)
+    cont = cont + (start_phase(w_start) - cont[0])
+    out = np.interp(w, grid, cont)
+    idx = np.minimum(np.searchsorted(grid, w), grid.size - 1)
+    ok = grid[idx] == w
+    out[ok] = cont[idx[ok]]
+    out[w <= 0] = cont[0]
+    return out
+
+
+def tracked(values, grid: np.ndarray, max_step: float = np.pi / 4) -> tuple[np.ndarray, np.ndarray]:
+    """(refined grid, continuous angle of values on it starting at the principal
+    angle at grid[0]): steps where the angle turns by more than max_step are
+    halved until none is left (or the grid reaches 4 million points)."""
+    grid = np.asarray(grid, dtype=float)
     vals = values(grid)
-    for _ in range(40):
-        ang = np.angle(vals)
-        step = np.abs(np.angle(np.exp(1j * np.diff(ang))))
-        bad = np.nonzero(step > np.pi / 4)[0]
-        if bad.size == 0 or grid.size > 2_000_000:
+    for _ in range(60):
+        step = np.abs(np.angle(vals[1:] * np.conj(vals[:-1])))
+        bad = np.nonzero(~(step <= max_step))[0]
+        if bad.size == 0 or grid.size > 4_000_000:
             break
         mids = 0.5 * (grid[bad] + grid[bad + 1])
         mids = mids[(mids > grid[bad]) & (mids < grid[bad + 1])]
         if mids.size == 0:
             break
         grid = np.concatenate([grid, mids])
-        order = np.argsort(grid)
+        order = np.argsort(grid, kind="stable")
         grid = grid[order]
         vals = np.concatenate([vals, values(mids)])[order]
-    ang = np.angle(vals)
-    d = np.angle(np.exp(1j * np.diff(ang)))
-    cont = start_phase(w_start) + np.concatenate([[0.0], np.cumsum(d)])
-    out = np.interp(w, grid, cont)
-    exact = np.searchsorted(grid, w)
-    ok = (exact < grid.size) & (grid[np.minimum(exact, grid.size - 1)] == w)
-    out[ok] = cont[exact[ok]]
-    out[w <= 0] = cont[0]
-    return out
+    d = np.angle(vals[1:] * np.conj(vals[:-1]))
+    cont = np.angle(vals[0]) + np.concatenate([[0.0], np.cumsum(d)])
+    return grid, cont
 
 
 def _lambdified(F):
