@@ -365,13 +365,21 @@ LOOP_PARTS = ("loop", "closed", "sensitivity", "effort", "disturbance")
 
 
 def expression_text(e: sp.Expr) -> str:
-    """Text that ``parse`` reads back to the same expression."""
-    e = sp.cancel(sp.together(e))
-    num, den = sp.fraction(e)
-    num, den = sp.expand(num), sp.expand(den)
+    """Text that ``parse`` reads back to the same expression: one fraction,
+    polynomials expanded, delays kept as exp(-T*s) factors of the terms."""
+    atoms = sorted(e.atoms(sp.exp), key=sp.default_sort_key)
+    subs = {a: sp.Dummy(f"z{i}", positive=True) for i, a in enumerate(atoms)}
+    back = {v: k for k, v in subs.items()}
+    r = sp.cancel(sp.together(e.xreplace(subs)))
+    num, den = sp.fraction(r)
+    num, den = sp.expand(num).xreplace(back), sp.expand(den).xreplace(back)
     if den == 1:
         return sp.sstr(num)
-    return f"({sp.sstr(num)})/({sp.sstr(den)})"
+
+    def wrap(x):
+        return sp.sstr(x) if (x.is_Atom or x.is_Pow or (x.is_Mul and not x.could_extract_minus_sign())) \
+            else f"({sp.sstr(x)})"
+    return f"{wrap(num)}/{wrap(den)}" if not den.is_Mul and not den.is_Pow else f"{wrap(num)}/({sp.sstr(den)})"
 
 
 def _rational_block(e: sp.Expr):

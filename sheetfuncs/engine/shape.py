@@ -37,6 +37,7 @@ POINTS = 20_001
 POINTS_NUMERIC = 4001
 ROUNDS = 3
 SUB = 200
+MAX_DOUBLINGS = 24
 
 
 @dataclass(frozen=True)
@@ -176,7 +177,7 @@ def response_shape(expr, params: Mapping | None = None, *, input=None, decay: fl
     else:
         horizon = max(1.0, 2.0 * delay)
     n = POINTS if mY.rational else POINTS_NUMERIC
-    for _ in range(12):
+    for _ in range(MAX_DOUBLINGS):
         ts = np.linspace(0.0, horizon, n)
         ys = fn(ts)
         dev = np.abs(ys - yf)
@@ -206,6 +207,8 @@ def response_shape(expr, params: Mapping | None = None, *, input=None, decay: fl
     if -sgn * ys[j] > 0:
         _, yu = _refine(fn, max(0.0, ts[j] - h), min(horizon, ts[j] + h), lambda y: -sgn * y)
         under = max(0.0, -sgn * yu)
+        if under <= 1e-9 * abs(ref):
+            under = 0.0
     under_pct = 100.0 * under / abs(ref) if ref else None
     # decay time
     level = decay / 100.0 * big
