@@ -172,6 +172,7 @@ class FrequencyModel:
     func: object = None             # non-rational: numpy function of s
     dfunc: object = None            # non-rational: dF/ds
     den_roots: np.ndarray | None = None   # poles of F (any number of pieces)
+    cancelled: np.ndarray | None = None   # roots of the factor common to numerator and denominator
 
     @property
     def single(self) -> bool:
@@ -357,6 +358,7 @@ def _rational_model(text, pieces) -> FrequencyModel:
     g = den
     for n in nums:
         g = g.gcd(n)
+    cancelled = _roots(g) if g.degree() > 0 else np.zeros(0, dtype=complex)
     if g.degree() > 0:
         den = den.quo(g)
         nums = [n.quo(g) for n in nums]
@@ -399,7 +401,7 @@ def _rational_model(text, pieces) -> FrequencyModel:
         N = sp.Add(*[n.as_expr() for n in nums])
         kw["mag2"] = (_even_square(N), _even_square(den.as_expr()))
     return FrequencyModel(text, True, tuple(delays), tuple(num_c), den_c, w0, dc=dc, dc_note=note,
-                          relative_degree=rel, den_roots=den_roots, **kw)
+                          relative_degree=rel, den_roots=den_roots, cancelled=cancelled, **kw)
 
 
 def _even_square(P: sp.Expr) -> np.ndarray:

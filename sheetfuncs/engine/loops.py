@@ -141,6 +141,13 @@ def margins(expr, params: Mapping | None = None) -> Margins:
         ms, ms_w = peak_sensitivity(m)
         stab = nyquist(m)
     notes += list(stab["notes"])
+    hidden = [r for r in (m.cancelled if m.cancelled is not None else []) if r.real >= 0]
+    if hidden:
+        r = hidden[0]
+        where = f"{r.real:.6g}" if r.imag == 0 else f"{r.real:.6g}{r.imag:+.6g}j"
+        notes.append(f"a factor with the root s = {where} cancels in L(s): the closed loop keeps that "
+                     "mode (not internally stable)")
+        stab = dict(stab, stable=False)
     dm = None
     if stab["stable"] and gc:
         dm = min(math.radians(p % 360.0) / w for p, w in zip(pms, gc))
@@ -225,24 +232,33 @@ def _q_values(m: FrequencyModel):
     return q
 
 
-def _radius(m: FrequencyModel, target: float) -> float | None:
-    """R (rad/s) with |L(s)| <= target for |s| >= R in the closed right half-plane,
-    from a coefficient bound of the scaled polynomials (None if not found)."""
+def _radius(m: FrequencyModel, target: float, nums=None) -> float | None:
+    """R (rad/s) with |sum_k N_k(s)/D(s)| <= target for |s| >= R in the closed right
+    half-plane (N_k = the loop's numerators unless given), from a coefficient bound
+    of the scaled polynomials (None if not found)."""
     den = np.abs(m.den)
     n = len(den) - 1
+    nums = m.nums if nums is None else nums
     rho = 1.0
     for _ in range(200):
         inv = rho ** -np.arange(0, n + 1, dtype=float)
         lower = den[0] - float(np.sum(den[1:] * inv[1:]))
         if lower > 0:
             upper = 0.0
-            for num in m.nums:
+            for num in nums:
                 d = len(num) - 1
                 upper += float(np.sum(np.abs(num) * rho ** -np.arange(0, d + 1, dtype=float))) * rho ** (d - n)
             if upper / lower <= target:
                 return rho * m.w0
         rho *= 2.0
     return None
+
+
+def sum_polys(polys) -> np.ndarray:
+    out = np.zeros(1)
+    for p in polys:
+        out = np.polyadd(out, p)
+    return out
 
 
 def nyquist(m: FrequencyModel) -> dict:
@@ -272,8 +288,14 @@ def nyquist(m: FrequencyModel) -> dict:
     tol = 1e-10 * max(1.0, float(np.max(np.abs(roots)))) if roots.size else 0.0
     P = int(np.sum(roots.real > tol))
     out["P"] = P
-    target = 0.5 if max(degs) < n else (1 + abs(lead)) / 2
-    R = _radius(m, min(target, 0.5) if max(degs) < n else target)
+    if delayed or max(degs) < n:
+        centre = 1.0                 # on the large arc 1 + L stays within |L| <= target of 1
+        R = _radius(m, 0.5 if max(degs) < n else (1 + abs(lead)) / 2)
+    else:                            # biproper, no delay: 1 + L stays near 1 + L(inf) on the arc
+        centre = 1.0 + lead
+        rest = np.polysub(sum_polys(m.nums), lead * np.asarray(m.den))
+        rest = np.trim_zeros(rest, "f") if np.any(rest) else np.zeros(1)
+        R = _radius(m, abs(centre) / 2, [rest])
     if R is None:
         out["notes"].append("closed-loop stability not decided: no radius found for the Nyquist contour")
         return out
@@ -301,7 +323,8 @@ def nyquist(m: FrequencyModel) -> dict:
     from .frequency import _branch_angle
     d_axis = float(_branch_angle(np.array([R]), roots)[0] - _branch_angle(np.array([-R]), roots)[0])
     L_R = complex(m.values(np.array([R]))[0])
-    winding = 2 * (cont[-1] - cont[0]) - d_axis - 2 * math.atan2(L_R.imag, 1 + L_R.real)
+    arc = (1 + L_R) / centre
+    winding = 2 * (cont[-1] - cont[0]) - d_axis - 2 * math.atan2(arc.imag, arc.real)
     Zf = P - winding / (2 * math.pi)
     Z = int(round(Zf))
     with np.errstate(all="ignore"):
