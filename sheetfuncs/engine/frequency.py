@@ -204,7 +204,8 @@ class FrequencyModel:
             zeros, poles = self.zeros, self.poles
             raw = base + _branch_angle(w, zeros) - _branch_angle(w, poles)
             raw0 = base + _branch_angle(np.zeros(1), zeros)[0] - _branch_angle(np.zeros(1), poles)[0]
-            target = _principal(raw0)
+            k = self.origin_order * 0.5 * np.pi
+            target = _principal(raw0 - k) + k          # arg(c) + k 90 deg for F ~ c s^k at w -> 0+
             shift = _TWO_PI * round((target - raw0) / _TWO_PI)
             return raw + shift - w * self.delays[0]
         return track_phase(self.values, w, self._start_phase)
