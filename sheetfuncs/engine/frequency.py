@@ -127,28 +127,28 @@ def _ratio(num: np.ndarray, den: np.ndarray, u: np.ndarray) -> np.ndarray:
 def _branch_angle(w: np.ndarray, roots: np.ndarray) -> np.ndarray:
     """Sum over roots r = a + jb of the continuous angle of (jw - r): for a < 0
     atan((w-b)/(-a)); for a > 0  pi - atan((w-b)/a); on the axis +-pi/2."""
+    w = np.asarray(w, dtype=float)
+    out = np.zeros(w.shape)
     if roots.size == 0:
-        return np.zeros_like(w)
-    a = roots.real[:, None]
-    b = roots.imag[:, None]
-    ww = w[None, :]
-    with np.errstate(all="ignore"):
-        left = np.arctan((ww - b) / np.where(a < 0, -a, 1.0))
-        right = np.pi - np.arctan((ww - b) / np.where(a > 0, a, 1.0))
-        axis = 0.5 * np.pi * np.sign(ww - b)
-    ang = np.where(a < 0, left, np.where(a > 0, right, axis))
-    return ang.sum(axis=0)
+        return out
+    off = roots[roots.real != 0]
+    if off.size:
+        c = np.abs(off.real)
+        sgn = np.where(off.real < 0, 1.0, -1.0)
+        out += sgn @ np.arctan((w[None, :] - off.imag[:, None]) / c[:, None]) + np.pi * np.sum(off.real > 0)
+    for r in roots[roots.real == 0]:
+        out += 0.5 * np.pi * np.sign(w - r.imag)
+    return out
 
 
 def _branch_rate(w: np.ndarray, roots: np.ndarray) -> np.ndarray:
     """d/dw of ``_branch_angle``: sum of -a/(a^2 + (w-b)^2) (0 on the axis)."""
-    if roots.size == 0:
-        return np.zeros_like(w)
-    a = roots.real[:, None]
-    b = roots.imag[:, None]
-    with np.errstate(all="ignore"):
-        r = np.where(a != 0, -a / (a * a + (w[None, :] - b) ** 2), 0.0)
-    return r.sum(axis=0)
+    w = np.asarray(w, dtype=float)
+    off = roots[roots.real != 0] if roots.size else roots
+    if off.size == 0:
+        return np.zeros(w.shape)
+    a = off.real[:, None]
+    return np.sum(-a / (a * a + (w[None, :] - off.imag[:, None]) ** 2), axis=0)
 
 
 # ------------------------------------------------------------------ the model
@@ -261,7 +261,7 @@ def track_phase(values, w: np.ndarray, start_phase) -> np.ndarray:
     low = float(pos.min()) if pos.size else 1.0
     w_start = low * 1e-4
     base = np.unique(np.concatenate([[w_start], np.geomspace(w_start, top, 400), pos]))
-    grid, cont = tracked(values, base)
+    grid, cont, _ = tracked(values, base)
     cont = cont + (start_phase(w_start) - cont[0])
     out = np.interp(w, grid, cont)
     idx = np.minimum(np.searchsorted(grid, w), grid.size - 1)
@@ -271,28 +271,35 @@ def track_phase(values, w: np.ndarray, start_phase) -> np.ndarray:
     return out
 
 
-def tracked(values, grid: np.ndarray, max_step: float = np.pi / 4) -> tuple[np.ndarray, np.ndarray]:
-    """(refined grid, continuous angle of values on it starting at the principal
-    angle at grid[0]): steps where the angle turns by more than max_step are
-    halved until none is left (or the grid reaches 4 million points)."""
+def tracked(values, grid: np.ndarray, max_step: float = np.pi / 4) -> tuple[np.ndarray, np.ndarray, int]:
+    """(grid, continuous angle of values on it starting at the principal angle at
+    grid[0], number of jumps): every step of the grid that turns by more than
+    max_step is subdivided (8 parts a level, all such steps at once) until each
+    part turns by less; a part narrower than 1e-12 of its frequency that still
+    jumps is a zero on the path (a jump of the phase) and is counted."""
     grid = np.asarray(grid, dtype=float)
     vals = values(grid)
-    for _ in range(60):
-        step = np.abs(np.angle(vals[1:] * np.conj(vals[:-1])))
-        bad = np.nonzero(~(step <= max_step))[0]
-        if bad.size == 0 or grid.size > 4_000_000:
-            break
-        mids = 0.5 * (grid[bad] + grid[bad + 1])
-        mids = mids[(mids > grid[bad]) & (mids < grid[bad + 1])]
-        if mids.size == 0:
-            break
-        grid = np.concatenate([grid, mids])
-        order = np.argsort(grid, kind="stable")
-        grid = grid[order]
-        vals = np.concatenate([vals, values(mids)])[order]
     d = np.angle(vals[1:] * np.conj(vals[:-1]))
+    owner = np.nonzero(~(np.abs(d) <= max_step))[0]
+    lo, hi, vlo, vhi = grid[owner], grid[owner + 1], vals[owner], vals[owner + 1]
+    d[owner] = 0.0
+    frac = np.linspace(0.0, 1.0, 9)
+    jumps = 0
+    for _ in range(60):
+        if owner.size == 0:
+            break
+        t = lo[:, None] + (hi - lo)[:, None] * frac[None, :]
+        inner = values(t[:, 1:-1].ravel()).reshape(owner.size, 7)
+        vv = np.concatenate([vlo[:, None], inner, vhi[:, None]], axis=1)
+        dd = np.angle(vv[:, 1:] * np.conj(vv[:, :-1]))
+        tiny = (hi - lo) <= 1e-12 * np.maximum(np.abs(hi), 1e-300)
+        good = (np.abs(dd) <= max_step) | tiny[:, None]
+        jumps += int(np.sum(~(np.abs(dd) <= max_step) & tiny[:, None]))
+        np.add.at(d, owner, np.where(good, dd, 0.0).sum(axis=1))
+        bi, bj = np.nonzero(~good)
+        owner, lo, hi, vlo, vhi = owner[bi], t[bi, bj], t[bi, bj + 1], vv[bi, bj], vv[bi, bj + 1]
     cont = np.angle(vals[0]) + np.concatenate([[0.0], np.cumsum(d)])
-    return grid, cont
+    return grid, cont, jumps
 
 
 def _lambdified(F):

@@ -314,7 +314,12 @@ def nyquist(m: FrequencyModel) -> dict:
             base.append(r.imag + max(abs(r.real), 1e-12 * abs(r)) * np.linspace(-8, 8, 81))
     grid = np.unique(np.concatenate(base))
     grid = grid[(grid >= 0) & (grid <= R)]
-    grid, cont = tracked(q, grid, max_step=np.pi / 8)
+    grid, cont, jumps = tracked(q, grid, max_step=np.pi / 8)
+    if jumps:
+        out["stable"] = False
+        out["notes"].append("marginal: a closed-loop pole lies on the imaginary axis (the phase of "
+                            "1 + L(jw) jumps)")
+        return out
     q0 = complex(q(np.array([0.0]))[0])
     if abs(q0) <= 1e-13 * (abs(m.den[-1]) + sum(abs(c[-1]) for c in m.nums)):
         out["stable"] = False
