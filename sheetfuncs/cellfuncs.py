@@ -446,3 +446,365 @@ FUNCTIONS = {
     "SF_TRANSFORM": transform,
     "SF_SELFCHECK": self_check,
 }
+
+
+# ---------------------------------------------------------------- frequency, loops, response shape
+# (frequency half: sheetfuncs.engine.frequency / loops / shape; frequencies in rad/s unless unit is "Hz")
+_TWO_PI = 2.0 * math.pi
+
+
+def _unit(value) -> float:
+    """Frequency unit factor to rad/s: 'rad/s' (default) or 'Hz'."""
+    u = _text(value, "rad/s").lower().replace(" ", "")
+    if u in ("rad/s", "rad", "radps", "w"):
+        return 1.0
+    if u in ("hz", "f"):
+        return _TWO_PI
+    raise ParameterError(f"unit must be rad/s or Hz, got '{value}'")
+
+
+def _frequency_model(expr, params):
+    from .engine import frequency
+    return frequency.model(_expr(expr), params_of(params))
+
+
+def _one_frequency(w, unit):
+    k = _unit(unit)
+    x = _number(w, "frequency")
+    if x < 0:
+        raise ParameterError("the frequency must not be negative")
+    return np.array([x * k])
+
+
+@cell
+def gain_db(expr, w, params=None, unit=None):
+    """Magnitude of F(jw) in dB at one frequency.
+
+    Args:
+        expr: F(s) as text, e.g. '4/(s^2+1.2s+4)'.
+        w: the frequency (rad/s, or Hz when unit is 'Hz').
+        params: two-column range of parameter names and values (optional).
+        unit: 'rad/s' (default) or 'Hz'.
+    """
+    m = _frequency_model(expr, params)
+    v = float(m.magnitude_db(_one_frequency(w, unit))[0])
+    if not math.isfinite(v):
+        raise SamplingError("the magnitude is zero or infinite at this frequency")
+    return v
+
+
+@cell
+def phase_deg(expr, w, params=None, unit=None):
+    """Phase of F(jw) in degrees at one frequency, continuous from w -> 0+ (a delay keeps turning).
+
+    Args:
+        expr: F(s) as text.
+        w: the frequency (rad/s, or Hz when unit is 'Hz').
+        params: two-column range of parameter names and values (optional).
+        unit: 'rad/s' (default) or 'Hz'.
+    """
+    m = _frequency_model(expr, params)
+    v = float(np.degrees(m.phase(_one_frequency(w, unit))[0]))
+    if not math.isfinite(v):
+        raise SamplingError("the phase is not defined at this frequency")
+    return v
+
+
+@cell
+def frequency_table(expr, w_from, w_to=None, points=None, params=None, unit=None):
+    """Rows of frequency, |F|, |F| in dB, phase (deg), group delay (s), header first: over a column of frequencies or a log grid.
+
+    Args:
+        expr: F(s) as text.
+        w_from: first frequency of the log grid, or a column of frequencies.
+        w_to: last frequency of the log grid.
+        points: number of grid points (default 101).
+        params: two-column range of parameter names and values (optional).
+        unit: 'rad/s' (default) or 'Hz', for the frequencies given and shown.
+    """
+    from .engine import frequency
+    e = _expr(expr)
+    k = _unit(unit)
+    if isinstance(w_from, (list, tuple)) and len(_vector(w_from, "frequencies")) > 1:
+        w = frequency.grid([_number(x, "a frequency") for x in _vector(w_from, "frequencies")], hz=k != 1.0)
+    else:
+        w = frequency.grid(None, _number(w_from, "first frequency"), _number(w_to, "last frequency"),
+                           _number(points, "number of points", 101, integer=True), hz=k != 1.0)
+    if w.size > MAX_TABLE_ROWS:
+        raise SamplingError(f"{w.size} rows is above the limit of {MAX_TABLE_ROWS}")
+    m = frequency.model(e, params_of(params))
+    _F, mag, db, ph, gd = frequency.evaluate(m, w)
+    head = "f (Hz)" if k != 1.0 else "w (rad/s)"
+    rows = [[head, "|F|", "|F| (dB)", "phase (deg)", "group delay (s)"]]
+    for r in zip(w / k, mag, db, ph, gd):
+        rows.append([float(x) if math.isfinite(x) else "" for x in r])
+    return rows
+
+
+#: name typed in a cell -> (attribute of FrequencyFigures or a section figure, is a frequency)
+FREQUENCY_FIGURES = {
+    "dc gain": ("dc_gain", False), "dc gain db": ("dc_gain_db", False), "bandwidth": ("bandwidth", True),
+    "peak": ("peak", False), "peak db": ("peak_db", False), "peak frequency": ("peak_frequency", True),
+    "band low": ("band_low", True), "band high": ("band_high", True),
+    "rolloff": ("hf_rolloff_db_per_decade", False), "natural frequency": ("natural_frequency", True),
+    "damping ratio": ("damping_ratio", False), "q": ("q", False),
+}
+_FREQUENCY_LABELS = [("DC gain", "dc gain"), ("DC gain (dB)", "dc gain db"), ("-3 dB bandwidth", "bandwidth"),
+                     ("resonant peak (dB)", "peak db"), ("peak frequency", "peak frequency"),
+                     ("lower band edge", "band low"), ("upper band edge", "band high"),
+                     ("high-frequency slope (dB/decade)", "rolloff"),
+                     ("natural frequency (least damped pair)", "natural frequency"),
+                     ("damping ratio (least damped pair)", "damping ratio"), ("Q (least damped pair)", "q")]
+
+
+def _frequency_figure_value(f, key, k):
+    attr, is_freq = FREQUENCY_FIGURES[key]
+    if attr in ("band_low", "band_high"):
+        v = f.band_edges[0 if attr == "band_low" else 1] if f.band_edges else None
+    elif attr in ("natural_frequency", "damping_ratio", "q"):
+        pairs = [s for s in f.sections if s.kind == "poles" and s.order == 2]
+        least = min(pairs, key=lambda s: s.damping_ratio) if pairs else None
+        v = getattr(least, attr) if least else None
+    else:
+        v = getattr(f, attr)
+    if v is not None and is_freq:
+        v = v / k
+    return v
+
+
+def _frequency_figures(expr, params):
+    from .engine import frequency
+    return frequency.frequency_figures(_frequency_model(expr, params))
+
+
+@cell
+def frequency_figure(expr, which, params=None, unit=None):
+    """One frequency figure by name: dc gain, dc gain db, bandwidth, peak db, peak frequency, band low, band high, rolloff, natural frequency, damping ratio, q.
+
+    Args:
+        expr: F(s) as text.
+        which: the name of the figure (see the list above).
+        params: two-column range of parameter names and values (optional).
+        unit: 'rad/s' (default) or 'Hz', for figures that are frequencies.
+    """
+    key = _text(which, "").lower().replace("_", " ").replace("-", " ").strip()
+    if key not in FREQUENCY_FIGURES:
+        raise ParameterError(f"unknown frequency figure '{which}'; use one of: {', '.join(FREQUENCY_FIGURES)}")
+    k = _unit(unit)
+    v = _frequency_figure_value(_frequency_figures(expr, params), key, k)
+    return "" if v is None else float(v)
+
+
+@cell
+def frequency_figures(expr, params=None, unit=None):
+    """A labelled two-column block of the frequency figures (empty value where a figure does not exist).
+
+    Args:
+        expr: F(s) as text.
+        params: two-column range of parameter names and values (optional).
+        unit: 'rad/s' (default) or 'Hz', for figures that are frequencies.
+    """
+    k = _unit(unit)
+    f = _frequency_figures(expr, params)
+    rows = []
+    for label, key in _FREQUENCY_LABELS:
+        v = _frequency_figure_value(f, key, k)
+        rows.append([label, "" if v is None else float(v)])
+    return rows
+
+
+LOOP_FIGURES = {
+    "gain crossover": ("gain_crossover", True), "phase margin": ("phase_margin_deg", False),
+    "phase crossover": ("phase_crossover", True), "gain margin": ("gain_margin_db", False),
+    "delay margin": ("delay_margin", False), "peak sensitivity": ("peak_sensitivity", False),
+    "stable": ("closed_loop_stable", False), "open loop rhp poles": ("open_loop_rhp_poles", False),
+    "closed loop rhp poles": ("closed_loop_rhp_poles", False), "encirclements": ("encirclements", False),
+}
+_LOOP_LABELS = [("gain crossover", "gain crossover"), ("phase margin (deg)", "phase margin"),
+                ("phase crossover", "phase crossover"), ("gain margin (dB)", "gain margin"),
+                ("delay margin (s)", "delay margin"), ("peak sensitivity", "peak sensitivity"),
+                ("closed loop stable (1 yes, 0 no)", "stable"),
+                ("open-loop RHP poles", "open loop rhp poles"),
+                ("closed-loop RHP poles (Nyquist)", "closed loop rhp poles")]
+
+
+@cache.memo
+def _margins_cached(expr: str, params: dict):
+    from .engine import loops
+    return loops.margins(expr, params)
+
+
+def _loop_value(mg, key, k):
+    attr, is_freq = LOOP_FIGURES[key]
+    v = getattr(mg, attr)
+    if isinstance(v, bool):
+        return 1 if v else 0
+    if v is not None and is_freq:
+        v = v / k
+    return v
+
+
+@cell
+def loop_figure(expr, which, params=None, unit=None):
+    """One loop figure of an open loop L(s) by name: gain crossover, phase margin, phase crossover, gain margin, delay margin, peak sensitivity, stable, open loop rhp poles, closed loop rhp poles, encirclements.
+
+    Args:
+        expr: the open loop L(s) as text, e.g. '2 exp(-s)/(s (3s+1))'.
+        which: the name of the figure (see the list above).
+        params: two-column range of parameter names and values (optional).
+        unit: 'rad/s' (default) or 'Hz', for the crossover frequencies.
+    """
+    key = _text(which, "").lower().replace("_", " ").replace("-", " ").strip()
+    if key not in LOOP_FIGURES:
+        raise ParameterError(f"unknown loop figure '{which}'; use one of: {', '.join(LOOP_FIGURES)}")
+    k = _unit(unit)
+    mg = _margins_cached(_expr(expr), params_of(params))
+    v = _loop_value(mg, key, k)
+    if v is None:
+        if key == "stable":
+            raise UnsupportedExpressionError("; ".join(mg.notes) or "closed-loop stability not decided")
+        return ""
+    return float(v) if not isinstance(v, int) else v
+
+
+@cell
+def loop_figures(expr, params=None, unit=None):
+    """A labelled two-column block of the loop figures of an open loop L(s).
+
+    Args:
+        expr: the open loop L(s) as text.
+        params: two-column range of parameter names and values (optional).
+        unit: 'rad/s' (default) or 'Hz', for the crossover frequencies.
+    """
+    k = _unit(unit)
+    mg = _margins_cached(_expr(expr), params_of(params))
+    rows = []
+    for label, key in _LOOP_LABELS:
+        v = _loop_value(mg, key, k)
+        rows.append([label, "" if v is None else (float(v) if not isinstance(v, int) else v)])
+    return rows
+
+
+@cache.memo
+def _loop_cached(plant: str, controller, sensor, params: dict):
+    from .engine import loops
+    return loops.close_loop(plant, controller, sensor, params)
+
+
+def _optional_expr(value, what):
+    try:
+        return _expr(value, what)
+    except _Empty:
+        return None
+
+
+@cell
+def close_loop(plant, controller=None, sensor=None, part=None, params=None):
+    """One transfer function of the feedback loop as expression text: loop, closed, sensitivity, effort or disturbance.
+
+    Args:
+        plant: the plant G(s) as text.
+        controller: the controller C(s) as text (default 1).
+        sensor: the sensor H(s) in the feedback path (default 1).
+        part: loop (C G H), closed (C G/(1+L), default), sensitivity (1/(1+L)), effort (C/(1+L)) or disturbance (G/(1+L)).
+        params: two-column range of parameter names and values (optional; names without values stay in the text).
+    """
+    from .engine.loops import LOOP_PARTS
+    key = _text(part, "closed").lower()
+    if key not in LOOP_PARTS:
+        raise ParameterError(f"part must be one of {', '.join(LOOP_PARTS)}; got '{part}'")
+    a = _loop_cached(_expr(plant, "plant"), _optional_expr(controller, "controller"),
+                     _optional_expr(sensor, "sensor"), params_of(params))
+    return a.part(key)
+
+
+@cell
+def loop_warnings(plant, controller=None, sensor=None, params=None):
+    """A one-column table (header first) of the exact cancellations and right-half-plane zeros of the loop.
+
+    Args:
+        plant: the plant G(s) as text.
+        controller: the controller C(s) as text (default 1).
+        sensor: the sensor H(s) in the feedback path (default 1).
+        params: two-column range of parameter names and values (optional).
+    """
+    a = _loop_cached(_expr(plant, "plant"), _optional_expr(controller, "controller"),
+                     _optional_expr(sensor, "sensor"), params_of(params))
+    items = [f"cancellation: {c}" for c in a.cancellations] + [f"warning: {z}" for z in a.rhp_zeros]
+    items += [f"note: {n}" for n in a.notes]
+    return [["loop checks"]] + [[x] for x in (items or ["no cancellation, no right-half-plane zero"])]
+
+
+SHAPE_FIGURES = {
+    "extremum": "extremum_value", "extremum time": "extremum_time", "final value": "final_value",
+    "undershoot": "undershoot", "undershoot %": "undershoot_percent", "decay time": "decay_time",
+    "decrement": "decrement", "period": "period", "measured decrement": "measured_decrement",
+    "measured period": "measured_period",
+}
+_SHAPE_LABELS = [("extremum", "extremum"), ("extremum time", "extremum time"), ("final value", "final value"),
+                 ("undershoot", "undershoot"), ("undershoot %", "undershoot %"),
+                 ("decay time (to the level)", "decay time"),
+                 ("logarithmic decrement (dominant poles)", "decrement"), ("period (dominant poles)", "period"),
+                 ("decrement measured on y(t)", "measured decrement"), ("period measured on y(t)", "measured period")]
+
+
+@cache.memo
+def _shape_cached(expr: str, excitation, params: dict, decay: float):
+    from .engine import shape
+    return shape.response_shape(expr, params, input=excitation, decay=decay)
+
+
+def _shape(expr, excitation, params, decay):
+    return _shape_cached(_expr(expr), _input(excitation), params_of(params), _number(decay, "decay level", 5.0))
+
+
+@cell
+def shape_figure(expr, which, excitation=None, params=None, decay=None):
+    """One figure of the response shape by name: extremum, extremum time, final value, undershoot, undershoot %, decay time, decrement, period, measured decrement, measured period.
+
+    Args:
+        expr: F(s) as text.
+        which: the name of the figure (see the list above).
+        excitation: impulse (default: the expression is the response), step, ramp or U(s).
+        params: two-column range of parameter names and values (optional).
+        decay: the level of the decay time in % of the largest deviation from the final value (default 5).
+    """
+    key = _text(which, "").lower().replace("_", " ").strip()
+    if key not in SHAPE_FIGURES:
+        raise ParameterError(f"unknown shape figure '{which}'; use one of: {', '.join(SHAPE_FIGURES)}")
+    f = _shape(expr, excitation, params, decay)
+    v = getattr(f, SHAPE_FIGURES[key])
+    return "" if v is None else float(v)
+
+
+@cell
+def shape_figures(expr, excitation=None, params=None, decay=None):
+    """A labelled two-column block of the response-shape figures.
+
+    Args:
+        expr: F(s) as text.
+        excitation: impulse (default: the expression is the response), step, ramp or U(s).
+        params: two-column range of parameter names and values (optional).
+        decay: the level of the decay time in % of the largest deviation from the final value (default 5).
+    """
+    f = _shape(expr, excitation, params, decay)
+    rows = []
+    for label, key in _SHAPE_LABELS:
+        v = getattr(f, SHAPE_FIGURES[key])
+        rows.append([label, "" if v is None else float(v)])
+    return rows
+
+
+FUNCTIONS.update({
+    "SF_GAIN_DB": gain_db,
+    "SF_PHASE_DEG": phase_deg,
+    "SF_FREQ_TABLE": frequency_table,
+    "SF_FREQ_FIGURE": frequency_figure,
+    "SF_FREQ_FIGURES": frequency_figures,
+    "SF_LOOP_FIGURE": loop_figure,
+    "SF_LOOP_FIGURES": loop_figures,
+    "SF_CLOSE_LOOP": close_loop,
+    "SF_LOOP_WARNINGS": loop_warnings,
+    "SF_SHAPE_FIGURE": shape_figure,
+    "SF_SHAPE_FIGURES": shape_figures,
+})

@@ -103,6 +103,24 @@ def build_parser() -> argparse.ArgumentParser:
     c = sub.add_parser("transform", help="forward transform of a time signal")
     c.add_argument("signal", metavar="SIGNAL", help="e.g. 'exp(-2t) sin(3t)', 'u(t) - u(t-1)'")
     common(c, expr=False)
+
+    c = sub.add_parser("frequency", help="frequency response F(jw) and its figures (bandwidth, peak ...)")
+    common(c)
+    c.add_argument("--omega", help="comma-separated frequencies (rad/s, or Hz with --hz)")
+    c.add_argument("--from", dest="start", type=float, help="first frequency of a log grid")
+    c.add_argument("--to", dest="stop", type=float, help="last frequency of a log grid")
+    c.add_argument("--n", type=int, help="number of grid points")
+    c.add_argument("--hz", action="store_true", help="grid and human output in Hz (JSON stays in rad/s)")
+
+    c = sub.add_parser("margins", help="loop figures of an open loop L(s): margins, crossovers, Nyquist stability")
+    common(c)
+    c.add_argument("--hz", action="store_true", help="human output in Hz (JSON stays in rad/s)")
+
+    c = sub.add_parser("loop", help="loop algebra: L, closed loop, sensitivity, effort, disturbance response")
+    common(c, expr=False)
+    c.add_argument("--plant", required=True, metavar="G", help="plant G(s)")
+    c.add_argument("--controller", metavar="C", default=None, help="controller C(s) (default 1)")
+    c.add_argument("--sensor", metavar="H", default=None, help="sensor H(s) in the feedback path (default 1)")
     return p
 
 
@@ -227,7 +245,27 @@ def _run(args):
         F = api.transform(args.signal, params)
         d = {"F_s": api.s_text(F)}
         return d if args.json else f"F(s) = {d['F_s']}"
+    if args.command in ("frequency", "margins", "loop"):
+        return _frequency_commands(args, params)
     raise _UsageError(f"unknown command {args.command}")
+
+
+def _frequency_commands(args, params):
+    from . import freqreport
+    from .engine import frequency, loops
+    digits = args.digits or 6
+    if args.command == "frequency":
+        omega = _floats(args.omega, "--omega") if args.omega else None
+        if omega is None and None in (args.start, args.stop, args.n):
+            raise _UsageError("frequency needs --omega W1,W2,... or --from A --to B --n N")
+        res = frequency.frequency_response(args.expr, omega, start=args.start, stop=args.stop, n=args.n,
+                                           hz=args.hz, params=params)
+        return res.to_dict() if args.json else freqreport.frequency(res, hz=args.hz, digits=digits)
+    if args.command == "margins":
+        res = loops.margins(args.expr, params)
+        return res.to_dict() if args.json else freqreport.margins(res, hz=args.hz, digits=digits)
+    res = loops.close_loop(args.plant, args.controller, args.sensor, params)
+    return res.to_dict() if args.json else freqreport.loop(res)
 
 
 if __name__ == "__main__":  # pragma: no cover

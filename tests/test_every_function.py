@@ -32,6 +32,25 @@ CASES = [
      lambda: cf.response_table("1/(s+1)", 0.0, 2.0, 5.0, "step")),
     ("J18", '=SF_RESPONSE_TABLE("1/(s+1)", P10:P12)',
      lambda: cf.response_table("1/(s+1)", [[0.0], [0.5], [2.0]])),
+    # frequency half
+    ("B40", '=SF_GAIN_DB("4/(s^2+1.2s+4)", 1.5)', lambda: cf.gain_db("4/(s^2+1.2s+4)", 1.5)),
+    ("B41", '=SF_PHASE_DEG("exp(-0.5s)/(s+1)", 3, "", "Hz")',
+     lambda: cf.phase_deg("exp(-0.5s)/(s+1)", 3.0, "", "Hz")),
+    ("B42", '=SF_FREQ_FIGURE("4/(s^2+1.2s+4)", "bandwidth")',
+     lambda: cf.frequency_figure("4/(s^2+1.2s+4)", "bandwidth")),
+    ("B43", '=SF_LOOP_FIGURE("2 exp(-s)/(3s+1)", "phase margin")',
+     lambda: cf.loop_figure("2 exp(-s)/(3s+1)", "phase margin")),
+    ("B44", '=SF_CLOSE_LOOP("2/(12s+1)", "0.5 (12 s + 1)/(12 s)", "", "closed")',
+     lambda: cf.close_loop("2/(12s+1)", "0.5 (12 s + 1)/(12 s)", "", "closed")),
+    ("B45", '=SF_SHAPE_FIGURE("4/(s^2+1.2s+4)", "extremum", "step")',
+     lambda: cf.shape_figure("4/(s^2+1.2s+4)", "extremum", "step")),
+    ("D40", '=SF_FREQ_TABLE("1/(s+1)", 0.1, 10, 3)', lambda: cf.frequency_table("1/(s+1)", 0.1, 10.0, 3.0)),
+    ("J40", '=SF_FREQ_FIGURES("s/(s^2+0.2s+1)")', lambda: cf.frequency_figures("s/(s^2+0.2s+1)")),
+    ("M40", '=SF_LOOP_FIGURES("3/(s(s+1)(s+2))")', lambda: cf.loop_figures("3/(s(s+1)(s+2))")),
+    ("D50", '=SF_LOOP_WARNINGS("(1-2s)/((12s+1)(s+1))", "(12 s + 1)/(12 s)")',
+     lambda: cf.loop_warnings("(1-2s)/((12s+1)(s+1))", "(12 s + 1)/(12 s)")),
+    ("J55", '=SF_SHAPE_FIGURES("(0.225 s + 3)/(45 s^2 + 600 s + 180000)")',
+     lambda: cf.shape_figures("(0.225 s + 3)/(45 s^2 + 600 s + 180000)")),
 ]
 
 
