@@ -55,6 +55,9 @@ MAX_FILE_BYTES = 1 << 30        # refuse packages above 1 GiB
 MAX_XML_BYTES = 512 << 20       # refuse to parse a single XML part above 512 MiB
 MAX_TEXT = 32767                # longest cell text Excel accepts
 MAX_ROW, MAX_COL = 1_048_576, 16_384
+#: temp files are ``TEMP_PREFIX + name[:40] + ".PID.RANDOM.tmp"`` next to the output, so a
+#: later run can tell (by the process id) which ones a killed run left behind
+TEMP_PREFIX = ".~"
 
 _OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
 _ENCRYPTED_STREAM = "EncryptedPackage".encode("utf-16-le")
@@ -620,7 +623,8 @@ def write_results(src, dst, writes: Iterable[CellWrite], *, calc_full_on_load_of
 def _write_zip(pkg: Package, dst: Path, patched: dict[str, bytes]) -> None:
     folder = dst.parent if str(dst.parent) else Path(".")
     try:
-        fd, tmp = tempfile.mkstemp(prefix=".~" + dst.name[:40] + ".", suffix=".tmp", dir=folder)
+        fd, tmp = tempfile.mkstemp(prefix=f"{TEMP_PREFIX}{dst.name[:40]}.{os.getpid()}.",
+                                   suffix=".tmp", dir=folder)
     except OSError as e:
         raise WorkbookError(f"cannot write in this folder ({e.strerror or e})", file=str(dst)) from None
     try:
@@ -644,10 +648,16 @@ def _write_zip(pkg: Package, dst: Path, patched: dict[str, bytes]) -> None:
             if bad is not None or len(check.infolist()) != len(pkg._infos):
                 raise WorkbookError(f"written package failed its check ({bad})", file=str(dst))
         try:
-            mode = (dst.stat() if dst.exists() else Path(pkg.file).stat()).st_mode & 0o7777
+            old = dst.stat() if dst.exists() else None
+            mode = (old or Path(pkg.file).stat()).st_mode & 0o7777
         except OSError:
-            mode = 0o644
+            old, mode = None, 0o644
         os.chmod(tmp, mode)
+        if old is not None and hasattr(os, "chown"):
+            try:                    # keep the owner of a file we replace (possible as root)
+                os.chown(tmp, old.st_uid, old.st_gid)
+            except OSError:
+                pass
         os.replace(tmp, dst)
     except WorkbookError:
         _unlink(tmp)
