@@ -11,12 +11,14 @@ Choices
 * A formula the tokenizer cannot read, or whose structure is broken, makes
   ``scan`` raise ``WorkbookError`` naming file and cell; ``evaluate`` reports
   it as that cell's error and carries on with the others.
-* An array result spills down and right over empty cells and constants (the
-  writer stores spilled cells as constants, so a second run must overwrite
-  them); a formula cell or another result in the way is an error, as Excel's
-  #SPILL! is.  Constants inside a spill an earlier fill recorded (defined names
-  ``_sfspill...``) read as empty unless a new result covers them, since the
-  writer empties them.
+* An array result spills down and right over empty cells only, and over the
+  constants of a spill an earlier fill recorded (defined names ``_sfspill...``;
+  the writer stores spilled cells as constants, so a second run overwrites
+  them).  Any other cell in the way -- the user's text, number or error value,
+  a formula, another result -- blocks it: the anchor gets an error naming the
+  first blocking cell (row by row) and no blocking cell is touched, as Excel's
+  #SPILL! does.  Constants inside a recorded spill read as empty unless a new
+  result covers them, since the writer empties them.
 * A cell holding a native formula gives its cached value, unless it depends on
   cells computed in this run (the cache would be stale); then, or without a
   cache, it is computed with the small evaluator (+ - * / ^ %, PI, SQRT, EXP,

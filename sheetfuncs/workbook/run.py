@@ -326,16 +326,24 @@ class _Run(_NativeCells):
         if it.row + m - 1 > _r.MAX_ROW or it.col + n - 1 > _r.MAX_COL:
             raise WorkbookError(f"the {m}x{n} result does not fit on the sheet from {it.ref}")
         grid = self.book.cells[it.sheet]
+        stale = self.stale
         for a in range(m):
             for b in range(n):
+                if not (a or b):
+                    continue
                 key = (it.sheet, it.row + a, it.col + b)
-                if (a or b) and (key in self.anchor or key in self.spilled
-                                 or type(grid.get(key[1:])) is Formula):
+                held = grid.get(key[1:])
+                if key in self.anchor or key in self.spilled or type(held) is Formula:
                     other = self.spilled.get(key)
                     why = (f"the result of {self.items[other[1]].label}" if other
                            else "a formula")
-                    raise WorkbookError(f"the {m}x{n} result cannot spill: {cell_label(*key)} "
-                                        f"holds {why}; move it or this formula")
+                elif held is not None and key not in stale:
+                    # the user's own value: never overwritten (Excel shows #SPILL! too)
+                    why = f"a value ({_shown(held)})"
+                else:
+                    continue
+                raise WorkbookError(f"the {m}x{n} result cannot spill: {cell_label(*key)} "
+                                    f"holds {why}; clear it or move this formula")
         for a in range(m):
             for b in range(n):
                 if a or b:
@@ -345,3 +353,11 @@ class _Run(_NativeCells):
         for rect in [k for k in self.range_memo if k[0] == it.sheet and k[1] <= r2
                      and it.row <= k[3] and k[2] <= c2 and it.col <= k[4]]:
             del self.range_memo[rect]
+
+
+def _shown(value: Any) -> str:
+    if isinstance(value, ErrorValue):
+        return f"the error {value.code}"
+    if isinstance(value, str):
+        return repr(value if len(value) <= 30 else value[:27] + "...")
+    return repr(value)

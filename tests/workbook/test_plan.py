@@ -446,22 +446,30 @@ def test_result_shapes(tmp_path):
     assert "type object" in out["Data", "C5"].error
 
 
-def test_spills_overwrite_constants_but_not_formulas(tmp_path):
+def test_spills_never_overwrite_user_cells(tmp_path):
     wb = new_book()
     ws = wb.active
     ws["A1"] = "=SF_TESTCOLUMN(3, 10)"
-    ws["A2"] = 99                      # e.g. left from an earlier run: overwritten
-    ws["B1"] = "=SF_TESTSUM(A2)"
+    ws["A3"] = 99                      # the user's number in the way (the first blocker is A3)
+    ws["B1"] = "=SF_TESTSUM(A3)"       # reads the user's value, which stays
     ws["D1"] = "=SF_TESTCOLUMN(3)"
     ws["D3"] = "=1+1"                  # a formula in the way
     ws["F1"] = "=SF_TESTPAIR()"
     ws["G2"] = "=SF_TESTSUM(1)"        # one of ours in the way
+    ws["J1"] = "=SF_TESTCOLUMN(3)"
+    ws["J2"] = "notes"                 # text in the way
+    ws["L1"] = "=SF_TESTCOLUMN(3)"
+    ws["L3"] = 5                       # inside the spill an earlier fill recorded: ours, replaced
+    wb.defined_names["_sfspill1"] = DefinedName("_sfspill1", attr_text="Data!$L$1:$L$3")
     out = run(wb, tmp_path)
-    assert out["Data", "A1"].value == [[10.0], [11.0], [12.0]]
-    assert out["Data", "B1"].value == 11.0
+    assert out["Data", "A1"].error == (MARK + "the 3x1 result cannot spill: Data!A3 holds a "
+                                       "value (99.0); clear it or move this formula")
+    assert out["Data", "B1"].value == 99.0
     assert out["Data", "D1"].error == (MARK + "the 3x1 result cannot spill: Data!D3 holds a "
-                                       "formula; move it or this formula")
+                                       "formula; clear it or move this formula")
     assert "Data!G2" in out["Data", "F1"].error
+    assert "Data!J2 holds a value ('notes')" in out["Data", "J1"].error
+    assert out["Data", "L1"].value == [[1.0], [2.0], [3.0]]
 
 
 def test_cells_left_from_an_earlier_spill_read_as_empty(tmp_path):
