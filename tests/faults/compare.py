@@ -14,6 +14,7 @@ not allowed and exits 1 if there is one.  Allowed after a successful fill:
 """
 from __future__ import annotations
 
+import io
 import sys
 import zipfile
 from pathlib import Path
@@ -44,10 +45,16 @@ def _spill_cells(wb) -> set:
     return out
 
 
+def _bytes(x) -> io.BytesIO:
+    return io.BytesIO(x if isinstance(x, (bytes, bytearray)) else Path(x).read_bytes())
+
+
 def differences(before, after, *, also_allowed=()) -> list[str]:
-    """Every difference a successful fill must not make (empty list: all kept)."""
+    """Every difference a successful fill must not make (empty list: all kept).
+    ``before``/``after``: paths (any name, e.g. a .bak) or bytes."""
     problems = []
-    with zipfile.ZipFile(before) as za, zipfile.ZipFile(after) as zb:
+    before, after = _bytes(before).getvalue(), _bytes(after).getvalue()
+    with zipfile.ZipFile(_bytes(before)) as za, zipfile.ZipFile(_bytes(after)) as zb:
         names_a = [i.filename for i in za.infolist()]
         names_b = [i.filename for i in zb.infolist()]
         if names_a != names_b:
@@ -62,8 +69,8 @@ def differences(before, after, *, also_allowed=()) -> list[str]:
         for name in names_a:
             if name in names_b and name not in may_change and za.read(name) != zb.read(name):
                 problems.append(f"part {name} changed")
-    wa = openpyxl.load_workbook(before)
-    wb = openpyxl.load_workbook(after)
+    wa = openpyxl.load_workbook(_bytes(before))
+    wb = openpyxl.load_workbook(_bytes(after))
     spill = _spill_cells(wb) | _spill_cells(wa) | set(also_allowed)
     if wa.sheetnames != wb.sheetnames:
         problems.append(f"sheets differ: {wa.sheetnames} vs {wb.sheetnames}")
