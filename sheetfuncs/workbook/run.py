@@ -23,6 +23,7 @@ from sheetfuncs.workbook.refs import NOTHING, ErrorValue, Formula, Key, Name, Re
 Rows = list[list[Any]]                  # an array value: rows of cell values
 
 _MAX_PASSES = 4
+_CYCLE_SHOWN = 12                      # cells a cycle's message names
 
 
 class _Item:
@@ -95,7 +96,11 @@ class _Run(_NativeCells):
             cons = [hard[i] | forced[i] for i in range(n)]
             failed: dict[int, Exception] = dict(pre)
             for comp in _cycles(cons):
-                failed.update((i, WorkbookError(self._cycle_text(comp, hard))) for i in comp)
+                if len(comp) > 1:               # one text for the whole cycle (it can be long)
+                    exc = WorkbookError(self._cycle_text(comp, hard))
+                    failed.update((i, exc) for i in comp)
+                else:
+                    failed[comp[0]] = WorkbookError(self._cycle_text(comp, hard))
             self._pass(_order(cons, soft, failed), failed)
             bad = self._violations()
             if not bad:
@@ -121,7 +126,9 @@ class _Run(_NativeCells):
 
     def _cycle_text(self, comp: list[int], hard: list[set[int]]) -> str:
         if len(comp) > 1:
-            return "circular reference among " + ", ".join(self.items[i].label for i in comp)
+            shown = ", ".join(self.items[i].label for i in comp[:_CYCLE_SHOWN])
+            more = f" and {len(comp) - _CYCLE_SHOWN} more cells" if len(comp) > _CYCLE_SHOWN else ""
+            return f"circular reference among {shown}{more}"
         i = comp[0]
         if i in hard[i]:
             return f"circular reference: {self.items[i].label} refers to its own cell"

@@ -42,7 +42,7 @@ def test_blocked_table_leaves_blockers_untouched(tmp_path):
     assert r.returncode == 1 and "S!C1" in r.stdout and "S!E3" in r.stdout
 
 
-def test_a_4000_cell_cycle_is_capped_and_the_rest_filled(tmp_path):
+def test_a_4000_cell_cycle_is_one_short_message_and_the_rest_filled(tmp_path):
     wb = openpyxl.Workbook()
     ws = wb.active
     ws.title = "S"
@@ -54,9 +54,32 @@ def test_a_4000_cell_cycle_is_capped_and_the_rest_filled(tmp_path):
     report, out, _, _ = fill(wb, tmp_path)
     s = out["S"]
     msg = s["A1"].value
-    assert msg.startswith("#SF! circular reference") and len(msg) <= MAX_CELL_TEXT
-    assert "more characters not shown" in msg
+    assert msg.startswith("#SF! circular reference among S!A1, S!A2") and msg.endswith("and 3988 more cells")
     assert report.errors == n and "exp(-4" in s["C2"].value.replace(" ", "")
+
+
+def test_huge_results_and_messages_fit_a_cell(tmp_path):
+    """A result longer than a cell holds is that cell's error; a huge error message is cut."""
+    def huge_text(_x):
+        return "y" * 40_000
+
+    def huge_error(_x):
+        raise ValueError("z" * 100_000)
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "S"
+    ws["A1"], ws["A2"], ws["A3"] = "=SF_HUGE(1)", "=SF_LOUD(1)", "=SF_FINE(2)"
+    src = tmp_path / "h.xlsx"
+    wb.save(src)
+    report = fill_workbook(src, tmp_path / "h_out.xlsx", use_cache=False,
+                           functions={"SF_HUGE": huge_text, "SF_LOUD": huge_error,
+                                      "SF_FINE": lambda x: x * 2})
+    s = openpyxl.load_workbook(tmp_path / "h_out.xlsx", data_only=True)["S"]
+    assert s["A1"].value == "#SF! the result is 40,000 characters long, above the cell limit of 32,767"
+    assert len(s["A2"].value) <= MAX_CELL_TEXT and s["A2"].value.endswith("more characters not shown)")
+    assert s["A3"].value == 4 and report.errors == 2
+    assert differences(src, tmp_path / "h_out.xlsx") == []
 
 
 def test_flat_sum_of_401_terms_is_that_cells_error_at_worst(tmp_path):
