@@ -23,6 +23,8 @@ from sheetfuncs.workbook.refs import NOTHING, ErrorValue, Formula, Key, Name, Re
 Rows = list[list[Any]]                  # an array value: rows of cell values
 
 _MAX_PASSES = 4
+#: most cells one range argument may cover (each becomes a value handed to the function)
+MAX_RANGE_CELLS = 1 << 20                # one whole column
 _CYCLE_SHOWN = 12                      # cells a cycle's message names
 
 
@@ -246,6 +248,11 @@ class _Run(_NativeCells):
         memo = self.range_memo.get(rect)
         if memo is None:
             sheet, r1, c1, r2, c2 = rect
+            size = (r2 - r1 + 1) * (c2 - c1 + 1)
+            if size > MAX_RANGE_CELLS:
+                label = _r.ref_label(Ref(sheet, r1, c1, r2, c2))
+                raise WorkbookError(f"the range {label} has {size:,} cells, above fill's limit of "
+                                    f"{MAX_RANGE_CELLS:,}; use a range that covers only the data")
             grid = self.book.cells[sheet]
             read = self._read
             rows, plain_any = [], False
