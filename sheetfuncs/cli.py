@@ -163,6 +163,11 @@ def _fill(args):
             if rest:
                 shown = ", ".join(rest[:20]) + (f" and {len(rest) - 20} more" if len(rest) > 20 else "")
                 lines.append(f"  also with errors: {shown}")
+            if r.natives_not_computed:
+                first = "; ".join(f"{c} ({w})" for c, w in r.natives_not_computed[:3])
+                more = len(r.natives_not_computed) - 3
+                lines.append(f"  {len(r.natives_not_computed)} native formulas left for the spreadsheet "
+                             f"to compute: {first}" + (f" and {more} more" if more > 0 else ""))
         lines += [f"error: {e}" for f, e in failures]
         out = "\n".join(lines)
     bad_cells = sum(r.errors for r in reports)

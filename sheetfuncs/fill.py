@@ -55,6 +55,8 @@ class FillReport:
     error_cells: tuple = field(default=())      # (sheet!ref, message), first few in full
     error_names: tuple = field(default=())      # sheet!ref of every cell with an error
     warnings: tuple = field(default=())         # cache and file notes (the fill went on)
+    #: (sheet!ref, reason) of native formulas whose value fill did not compute or cache
+    natives_not_computed: tuple = field(default=())
 
     @property
     def status(self) -> int:
@@ -67,7 +69,8 @@ class FillReport:
                 "cache_hits": self.cache_hits, "seconds": round(self.seconds, 3),
                 "backup": self.backup,
                 "error_cells": [{"cell": c, "error": e} for c, e in self.error_cells],
-                "error_names": list(self.error_names), "warnings": list(self.warnings)}
+                "error_names": list(self.error_names), "warnings": list(self.warnings),
+                "natives_not_computed": [{"cell": c, "why": w} for c, w in self.natives_not_computed]}
 
 
 # ------------------------------------------------------------------ caching
@@ -349,9 +352,11 @@ def _fill_package(pkg, src: Path, dst_path: Path, functions, store, notes, t0, *
     names = defined_name_values(book)
     funcs = _CachedFunctions(functions or cellfuncs.FUNCTIONS, store, names)
     natives: dict = {}
+    not_computed: dict = {}
     with cellfuncs.name_values(names):
         outcomes = _plan.evaluate(book, funcs.mapping(), prefix=cellfuncs.PREFIX,
-                                  error_text=cell_error_text, strict=False, natives=natives)
+                                  error_text=cell_error_text, strict=False, natives=natives,
+                                  not_computed=not_computed)
     funcs.flush()
     writes, spill_names, spilled, errors = _writes(outcomes, book)
     taken = {(w.sheet, w.ref) for w in writes}
@@ -364,7 +369,8 @@ def _fill_package(pkg, src: Path, dst_path: Path, functions, store, notes, t0, *
     write_results(pkg, dst_path, writes + cleared, names=spill_names, names_prefix=SPILL_NAME_PREFIX)
     return FillReport(str(src), str(dst_path), len(outcomes), len(errors), spilled, len(cleared),
                       funcs.hits, time.perf_counter() - t0, backup, tuple(errors[:ERRORS_IN_FULL]),
-                      tuple(w for w, _ in errors), tuple(dict.fromkeys(notes)))
+                      tuple(w for w, _ in errors), tuple(dict.fromkeys(notes)),
+                      tuple((f"{_quote(sh)}{ref}", why) for (sh, ref), why in sorted(not_computed.items())))
 
 
 def _storable(v) -> bool:

@@ -11,8 +11,8 @@ from typing import Any, Callable, Mapping
 
 from sheetfuncs.errors import ParameterError, WorkbookError
 from sheetfuncs.workbook import refs as _r
-from sheetfuncs.workbook.calc import (_NATIVE, _arity_text, _binop, _cell_value, _elementwise, _Located,
-                                      _neg, _normalise, _percent, _Unsupported)
+from sheetfuncs.workbook.calc import (_AGGREGATE, _NATIVE, _arity_text, _binop, _cell_value, _elementwise,
+                                      _Located, _neg, _normalise, _percent, _truth, _Unsupported)
 from sheetfuncs.workbook.deps import MAX_NAME_DEPTH, Reach
 from sheetfuncs.workbook.formula import (ArrayLit, BinOp, Bool, Call, ErrorLit, Missing, Neg, Num,
                                          Percent, Text, Unsupported)
@@ -281,10 +281,20 @@ class _Run(_NativeCells):
             return _normalise(func(*values), name)
         if name == "ANCHORARRAY":
             return self._anchor_array(args)
+        if name in ("IF", "IFERROR"):
+            return self._if(name, args, sheet, depth)
+        agg = _AGGREGATE.get(name)
+        if agg is not None:
+            lo, hi, afn = agg
+            if not lo <= len(args) <= hi:
+                raise WorkbookError(f"{name} takes {lo} to {hi} arguments, but {len(args)} were given")
+            return afn([self._value(a, sheet, depth) for a in args])
         spec = _NATIVE.get(name)
         if spec is None:
-            raise _Unsupported(f"{name} cannot be computed by fill; compute it in a cell of "
+            exc = _Unsupported(f"{name} cannot be computed by fill; compute it in a cell of "
                                "its own and refer to that cell")
+            exc.what = name
+            raise exc
         lo, hi, fn = spec
         if not lo <= len(args) <= hi:
             want = f"{lo}" if lo == hi else f"{lo} or {hi}"
@@ -295,6 +305,27 @@ class _Run(_NativeCells):
             v = values[0]
             return v[0][0] if type(v) is list else v
         return _elementwise(fn, values)
+
+    def _if(self, name: str, args: tuple[Any, ...], sheet: str, depth: int) -> Any:
+        """IF(condition, then, else) and IFERROR(value, instead), computing only the branch taken."""
+        if name == "IF":
+            if not 2 <= len(args) <= 3:
+                raise WorkbookError(f"IF takes 2 or 3 arguments, but {len(args)} were given")
+            cond = self._value(args[0], sheet, depth)
+            if type(cond) is list:          # a range condition: item by item, both branches
+                rest = [self._value(a, sheet, depth) for a in args[1:]] + [False] * (3 - len(args))
+                return _elementwise(lambda c, a, b: a if _truth(c) else b, [cond, *rest])
+            if _truth(cond):
+                return self._value(args[1], sheet, depth)
+            return self._value(args[2], sheet, depth) if len(args) == 3 else False
+        if len(args) != 2:
+            raise WorkbookError(f"IFERROR takes 2 arguments, but {len(args)} were given")
+        try:
+            return self._value(args[0], sheet, depth)
+        except _Unsupported:
+            raise
+        except WorkbookError:
+            return self._value(args[1], sheet, depth)
 
     def _check_arity(self, name: str, func: Callable[..., Any], n: int) -> None:
         sig = self._sigs.get(name, NOTHING)
