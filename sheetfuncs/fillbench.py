@@ -3,6 +3,8 @@ five 1,000-row sampled columns, filled cold (empty result cache) and again
 with unchanged inputs (warm, from the persistent cache).
 
     python -m sheetfuncs.fillbench [--rows 1000] [--cells 200]
+    python -m sheetfuncs.fillbench --faults [--rows 1000000]   # zip bomb, locked cache, N SF rows
+    python -m sheetfuncs.fillbench --natives FILLED.xlsx ...    # native-formula engines compared
 
 Targets: cold under 5 s, warm under 1 s.  Figures go in docs/benchmarks.md.
 """
@@ -170,6 +172,7 @@ def faults(rows: int) -> int:
         env = {"SHEETFUNCS_CACHE_DIR": str(cache_dir), "SHEETFUNCS_CACHE": "on"}
         measure(small, tmp / "warmup.xlsx", "cache", env)
         free = measure(small, tmp / "free.xlsx", "cache", env)
+        cold = measure(small, tmp / "cold.xlsx", "nocache", env)
         db = cache_dir / "results.sqlite3"
         holder = subprocess.Popen([sys.executable, "-c",
                                    "import sqlite3,sys,time\n"
@@ -187,12 +190,115 @@ def faults(rows: int) -> int:
             holder.wait()
         del sqlite3
         print(f"cache held in EXCLUSIVE locking mode by another process ({free.get('cells')} cells):")
-        print(f"  free cache {free.get('seconds', 0):.2f} s; locked {locked.get('seconds', 0):.2f} s, "
-              f"{locked.get('errors')} errors, warning: {locked.get('warnings')}")
+        print(f"  warm free cache {free.get('seconds', 0):.2f} s; no cache {cold.get('seconds', 0):.2f} s; "
+              f"locked {locked.get('seconds', 0):.2f} s, {locked.get('errors')} errors, "
+              f"warning: {locked.get('warnings')}")
         big = build_rows(tmp / "rows.xlsx", rows)
         m = measure(big, tmp / "rows_out.xlsx")
         print(f"{rows:,} SF_RESPONSE rows ({big.stat().st_size / 1e6:.1f} MB book): "
               f"{m.get('seconds', 0):.1f} s, peak {m.get('peak_mb', 0):.0f} MB, {m.get('errors', m)} errors")
+    return 0
+
+
+# ---------------------------------------------------------------- native formula engines
+def _native_cells(path):
+    import openpyxl
+    wb = openpyxl.load_workbook(path)
+    vals = openpyxl.load_workbook(path, data_only=True)
+    nat, ours = {}, {}
+    for ws in wb.worksheets:
+        for c in ws._cells.values():
+            t = getattr(c.value, "text", c.value)
+            if isinstance(t, str) and t.startswith("="):
+                (ours if "SF_" in t.upper() else nat)[(ws.title, c.coordinate)] = (
+                    t, vals[ws.title][c.coordinate].value)
+    return nat, ours
+
+
+def _ours_natives(path):
+    from .workbook import plan, refs
+    t0 = time.perf_counter()
+    book = refs.open_book(path)
+    run = plan._Run(book, plan._collect(book, "SF_"), {})
+    out = {}
+    for sheet in book.sheets:
+        for pos, cell in book.cells[sheet].items():
+            if type(cell) is refs.Formula:
+                key = (sheet, f"{refs.column_letters(pos[1])}{pos[0]}")
+                try:
+                    run.job_memo = {}
+                    out[key] = run._native((sheet, pos[0], pos[1]))
+                except Exception as e:  # noqa: BLE001 - counted as not computed
+                    out[key] = e
+    return out, time.perf_counter() - t0
+
+
+def _formulas_natives(path):
+    import re
+
+    import formulas
+    t0 = time.perf_counter()
+    sol = formulas.ExcelModel().loads(str(path)).finish().calculate()
+    out = {}
+    for k, v in sol.items():
+        m = re.match(r"'\[(.*)\](.*)'!([A-Z]+[0-9]+)$", k)
+        if m:
+            out[(m.group(2).upper(), m.group(3))] = v.value[0, 0] if hasattr(v, "value") else v
+    return out, time.perf_counter() - t0
+
+
+def _pycel_natives(path, cells):
+    from pycel import ExcelCompiler
+    t0 = time.perf_counter()
+    xl = ExcelCompiler(filename=str(path))
+    out = {}
+    for s, ref in cells:
+        try:
+            out[(s, ref)] = xl.evaluate(f"{s}!{ref}")
+        except Exception as e:  # noqa: BLE001 - counted as not computed
+            out[(s, ref)] = e
+    return out, time.perf_counter() - t0
+
+
+def natives(paths) -> int:
+    """Coverage and speed of native-formula engines (ours, and the PyPI packages ``formulas``
+    and ``pycel`` where installed) on filled books whose SF cells are first replaced by their
+    cached values, so that only native formulas are computed."""
+    import math
+    import warnings
+
+    import openpyxl
+    warnings.simplefilter("ignore")
+
+    def good(v):
+        return (isinstance(v, (int, float, str, bool)) and not (isinstance(v, str) and v.startswith("#"))
+                and not (isinstance(v, float) and not math.isfinite(v)))
+
+    with tempfile.TemporaryDirectory() as tmp:
+        for orig in paths:
+            nat, ours = _native_cells(orig)
+            wb = openpyxl.load_workbook(orig)
+            for (sheet, ref), (_t, v) in ours.items():
+                wb[sheet][ref].value = v
+            path = Path(tmp) / Path(orig).name
+            wb.save(path)
+            line = [f"{Path(orig).name} ({len(nat)} native cells):"]
+            for name, fn in (("ours", lambda: _ours_natives(path)),
+                             ("formulas", lambda: _formulas_natives(path)),
+                             ("pycel", lambda: _pycel_natives(path, list(nat)))):
+                try:
+                    out, secs = fn()
+                except ImportError:
+                    line.append(f"{name}: not installed")
+                    continue
+                except Exception as e:  # noqa: BLE001 - an engine that cannot read the book
+                    line.append(f"{name}: fails ({type(e).__name__}: {str(e)[:60]})")
+                    continue
+                if name == "formulas":
+                    out = {(s, r): out.get((s.upper(), r)) for s, r in nat}
+                done = sum(1 for k in nat if good(out.get(k)))
+                line.append(f"{name}: {done}/{len(nat)} in {secs:.2f} s")
+            print("  ".join(line))
     return 0
 
 
@@ -202,9 +308,13 @@ def main(argv=None) -> int:
     ap.add_argument("--rows", type=int, default=1000)
     ap.add_argument("--faults", action="store_true",
                     help="figures under faults: zip bomb, locked cache, --rows SF rows (try 1000000)")
+    ap.add_argument("--natives", nargs="+", metavar="BOOK",
+                    help="native-formula coverage and speed: ours, formulas, pycel (filled books)")
     args = ap.parse_args(argv)
     if args.faults:
         return faults(args.rows)
+    if args.natives:
+        return natives(args.natives)
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
         os.environ["SHEETFUNCS_CACHE_DIR"] = str(tmp / "cache")   # empty persistent cache
