@@ -217,5 +217,10 @@ def _labels(node: Any) -> Iterator[str]:
     elif t is Neg or t is Percent:
         yield from _labels(node.operand)
     elif t is BinOp:
-        yield from _labels(node.left)
-        yield from _labels(node.right)
+        rights = []
+        while type(node) is BinOp:          # along the left spine, without recursion
+            rights.append(node.right)
+            node = node.left
+        yield from _labels(node)
+        for r in reversed(rights):
+            yield from _labels(r)

@@ -188,8 +188,17 @@ class _Run(_NativeCells):
         if t is Call:
             return self._call(node, sheet, depth)
         if t is BinOp:
-            return _binop(node.op, self._value(node.left, sheet, depth),
-                          self._value(node.right, sheet, depth))
+            if type(node.left) is not BinOp:
+                return _binop(node.op, self._value(node.left, sheet, depth),
+                              self._value(node.right, sheet, depth))
+            spine = []                      # a chain A+B+C..., left to right, without recursion
+            while type(node) is BinOp:
+                spine.append(node)
+                node = node.left
+            acc = self._value(node, sheet, depth)
+            for op in reversed(spine):
+                acc = _binop(op.op, acc, self._value(op.right, sheet, depth))
+            return acc
         if t is Neg:
             return _elementwise(_neg, [self._value(node.operand, sheet, depth)])
         if t is Percent:

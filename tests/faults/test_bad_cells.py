@@ -82,24 +82,23 @@ def test_huge_results_and_messages_fit_a_cell(tmp_path):
     assert differences(src, tmp_path / "h_out.xlsx") == []
 
 
-def test_flat_sum_of_401_terms_is_that_cells_error_at_worst(tmp_path):
+def test_flat_sum_of_401_terms_is_computed_and_too_deep_is_that_cells_error(tmp_path):
     wb = openpyxl.Workbook()
     ws = wb.active
     ws.title = "S"
     ws["A1"] = 1.0
-    ws["B1"] = "=SF_INVERSE(" + "+".join(["A1"] * 401) + "&\"/(s+1)\")"
-    deep = "=SF_INVERSE(" + "(" * 500 + "A1" + ")" * 500 + ")"
-    ws["B2"] = deep
+    ws["B1"] = "=SF_INVERSE(" + "+".join(["A1"] * 401) + "&\"/(s+1)\")"     # valid in Excel
+    ws["B2"] = "=SF_INVERSE(" + "(" * 500 + "A1" + ")" * 500 + ")"
+    ws["B3"] = "=SF_INVERSE(" + "ABS(" * 450 + "A1" + ")" * 450 + ")"
     ws["C1"] = "1/(s+2)"
     ws["C2"] = "=SF_INVERSE(C1)"
     report, out, _, _ = fill(wb, tmp_path)
     s = out["S"]
-    for cell in ("B1", "B2"):
-        v = s[cell].value
-        assert isinstance(v, str)
-        assert "internal error" not in v
-    assert s["B2"].value.startswith("#SF!") and "too long or nested too deeply" in s["B2"].value
-    assert "exp(-2" in s["C2"].value.replace(" ", "")
+    assert s["B1"].value.replace(" ", "") == "401*exp(-t)"                 # 401/(s+1)
+    for cell in ("B2", "B3"):
+        assert s[cell].value.startswith("#SF!") and "too long or nested too deeply" in s[cell].value
+        assert "internal error" not in s[cell].value
+    assert "exp(-2" in s["C2"].value.replace(" ", "") and report.errors == 2
 
 
 def test_overflow_and_underflow_are_ordinary_errors(tmp_path):

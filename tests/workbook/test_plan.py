@@ -271,7 +271,7 @@ def test_valid_formulas_fill_does_not_compute_are_errors_of_their_cell(tmp_path)
     for ref, (_, message) in cells.items():
         assert out["Data", ref].error == MARK + message, ref
     assert {j.ref for j in scan(wb)} == set(cells)     # valid formulas: scan lists them
-    ws["B9"] = "=SF_TESTSUM(" + "+".join(["A1"] * 500) + ")"
+    ws["B9"] = "=SF_TESTSUM(" + "ABS(" * 450 + "A1" + ")" * 450 + ")"
     with pytest.raises(WorkbookError, match="too long or nested too deeply"):
         scan(wb)
     assert run(wb, tmp_path, name="long.xlsx")["Data", "B9"].error.endswith(
@@ -601,6 +601,22 @@ def test_two_hundred_cells_and_five_long_columns_are_fast(tmp_path):
     assert h1.value == pytest.approx(spills + 2 * 0.001)
     print(f"\nplan+evaluate of 200 cells: {total - spent[0]:.3f} s (functions {spent[0]:.3f} s)")
     assert total - spent[0] < 1.0
+
+
+def test_long_flat_chains_are_computed(tmp_path):
+    """A flat sum is one level deep however long (Excel allows 8,192 characters)."""
+    wb = new_book()
+    ws = wb.active
+    ws["A1"] = 0.1
+    ws["B1"] = "=SF_TESTSUM(" + "+".join(["A1"] * 2700) + ")"
+    ws["B2"] = "=" + "*".join(["2"] * 1000) + "/2" * 999        # 2^1000 / 2^999, exact in binary
+    ws["B3"] = "=SF_TESTSUM(B2)"
+    out = run(wb, tmp_path)
+    acc = 0.0
+    for _ in range(2700):                  # left to right, as the spreadsheet adds
+        acc += 0.1
+    assert out["Data", "B1"].value == acc
+    assert out["Data", "B3"].value == 2.0
 
 
 def test_native_functions_fill_computes(tmp_path):
