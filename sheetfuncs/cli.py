@@ -89,7 +89,9 @@ def build_parser() -> argparse.ArgumentParser:
     c = sub.add_parser("fill", help="compute the sheetfuncs cells of workbooks headlessly")
     c.add_argument("books", nargs="+", metavar="BOOK", help=".xlsx/.xlsm files or folders")
     c.add_argument("-o", "--output", help="output file (one book) or folder")
-    c.add_argument("--in-place", action="store_true", help="overwrite the input (keeps BOOK.bak)")
+    c.add_argument("--in-place", action="store_true",
+                   help="fill the file itself (the first BOOK.bak is kept; exit 0 all filled, "
+                        "1 some cells hold errors, 2 nothing written)")
     c.add_argument("--no-cache", action="store_true", help="do not use the persistent result cache")
     c.add_argument("--json", action="store_true", help="print JSON")
     c.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
@@ -147,7 +149,7 @@ def main(argv=None) -> int:
         out = _run(args)
     except _Partial as exc:          # results already printed; say what failed
         print(f"error: {exc}", file=sys.stderr)
-        return EXIT_USAGE
+        return exc.status
     except SheetfuncsError as exc:
         return _fail(str(exc), want_json)
     except KeyboardInterrupt:
@@ -164,32 +166,58 @@ def main(argv=None) -> int:
 
 
 def _fill(args):
-    from .fill import fill_many
+    """Exit status: 0 every cell of ours filled; 1 output written but some cells hold
+    errors (or some books of several failed); 2 nothing written."""
+    from .fill import ERRORS_IN_FULL, fill_many
     if args.in_place and args.output:
         raise _UsageError("give either --in-place or -o, not both")
     reports, failures = fill_many(args.books, args.output, in_place=args.in_place,
                                   use_cache=not args.no_cache, progress=sys.stderr.isatty())
+    failures = [(f, e if f in e else f"{f}: {e}") for f, e in failures]    # the path once
     if failures and not reports and len(failures) == 1:
         raise SheetfuncsError(failures[0][1])
+    notes = list(dict.fromkeys(w for r in reports for w in r.warnings))
+    for note in notes:
+        print(f"warning: {note}", file=sys.stderr)
     if args.json:
         out = {"filled": [r.to_dict() for r in reports],
-               "failed": [{"file": f, "error": e} for f, e in failures]}
+               "failed": [{"file": f, "error": e} for f, e in failures], "warnings": notes}
     else:
         lines = []
         for r in reports:
             lines.append(f"{r.output}: {r.cells} cells ({r.errors} with errors, {r.spilled} spilled, "
                          f"{r.cache_hits} from cache) in {r.seconds:.2f} s")
             lines += [f"  {c}: {e}" for c, e in r.error_cells]
-        lines += [f"error: {f}: {e}" for f, e in failures]
+            rest = r.error_names[ERRORS_IN_FULL:]
+            if rest:
+                shown = ", ".join(rest[:20]) + (f" and {len(rest) - 20} more" if len(rest) > 20 else "")
+                lines.append(f"  also with errors: {shown}")
+            if r.natives_not_computed:
+                first = "; ".join(f"{c} ({w})" for c, w in r.natives_not_computed[:3])
+                more = len(r.natives_not_computed) - 3
+                lines.append(f"  {len(r.natives_not_computed)} native formulas left for the spreadsheet "
+                             f"to compute: {first}" + (f" and {more} more" if more > 0 else ""))
+        lines += [f"error: {e}" for f, e in failures]
         out = "\n".join(lines)
-    if failures:
+    bad_cells = sum(r.errors for r in reports)
+    if failures or bad_cells:
         print(json.dumps(out) if args.json else out)
-        raise _Partial(f"{len(failures)} of {len(failures) + len(reports)} workbooks failed")
+        why = []
+        if bad_cells:
+            why.append(f"{bad_cells} cell{'s' if bad_cells != 1 else ''} hold errors")
+        if failures:
+            why.append(f"{len(failures)} of {len(failures) + len(reports)} workbooks failed "
+                       "(not written)")
+        raise _Partial("; ".join(why), status=1 if reports else EXIT_USAGE)
     return out
 
 
 class _Partial(SheetfuncsError):
-    pass
+    """Results already printed; the message says what failed; ``status`` is the exit status."""
+
+    def __init__(self, message: str, status: int = EXIT_USAGE):
+        super().__init__(message)
+        self.status = status
 
 
 def _fail(message: str, want_json: bool) -> int:

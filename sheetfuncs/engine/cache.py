@@ -5,7 +5,8 @@
   frozen, so sharing them is safe.
 - ``ResultStore``: a persistent cache of JSON-ready results in SQLite (the
   user's cache folder), safe when several processes fill at once (WAL mode,
-  busy timeout, upsert).
+  upsert); sqlite3 is imported on first use, and any problem with the store
+  turns it off with one warning (see ``ResultStore``).
 
 ``SHEETFUNCS_CACHE=off`` turns both off (for cold timings).
 """
@@ -15,8 +16,8 @@ import functools
 import hashlib
 import json
 import os
-import sqlite3
 import threading
+import time
 from collections import OrderedDict
 from pathlib import Path
 
@@ -94,61 +95,226 @@ def make_key(*parts) -> str:
     return hashlib.sha256(text.encode()).hexdigest()
 
 
-class ResultStore:
-    """Persistent key -> JSON value store in SQLite."""
+class CacheWarning(UserWarning):
+    """The persistent result store turned itself off (the run goes on without it)."""
 
-    def __init__(self, path: str | os.PathLike | None = None):
+
+#: most time one store spends waiting for a lock held by another process, in all
+WAIT_BUDGET = 1.0
+_CORRUPT_CODES = (11, 26)           # SQLITE_CORRUPT, SQLITE_NOTADB
+_BUSY_CODES = (5, 6)                # SQLITE_BUSY, SQLITE_LOCKED
+
+
+def _sqlite():
+    """sqlite3, imported on first use: a Python built without it (Pyodide) still
+    imports the package; the store then turns itself off."""
+    import sqlite3
+    return sqlite3
+
+
+class ResultStore:
+    """Persistent key -> JSON value store in SQLite.
+
+    A cache is only ever an accelerator, so every problem with it -- a file that
+    is not a database, a folder in its place, a read-only or full disk, a folder
+    that cannot be created, a lock held by another process (in any locking mode),
+    no sqlite3 in this Python -- turns the store off with *one* warning (through
+    ``warn``, else ``warnings.warn(CacheWarning)``) and the caller carries on:
+    ``get`` misses, ``put_many`` does nothing.  Never an exception, never a
+    wrong value.  Waits on locks are our own short retries (SQLite's busy
+    timeout is 0) and add up to at most ``WAIT_BUDGET`` seconds per store.  A
+    corrupt database (SQLITE_CORRUPT / SQLITE_NOTADB) is renamed aside as
+    ``results.sqlite3.corrupt-<time>`` and a fresh one is started (once per store).
+    Rows that do not decode read as misses.
+    """
+
+    def __init__(self, path: str | os.PathLike | None = None, *, warn=None,
+                 wait_budget: float | None = None):
         self.path = Path(path) if path else default_cache_dir() / "results.sqlite3"
         self._conn = None
+        self._ident = None
+        self.warn = warn
+        self.budget = WAIT_BUDGET if wait_budget is None else float(wait_budget)
+        self.waited = 0.0
+        self.off: str | None = None          #: why the store is off, once it is
+        self.warning: str | None = None      #: the one warning given
+        self.set_aside: str | None = None    #: where a corrupt database was moved
 
+    # -- connection
     def _db(self):
         if self._conn is None:
+            sqlite3 = _sqlite()
             self.path.parent.mkdir(parents=True, exist_ok=True)
-            conn = sqlite3.connect(self.path, timeout=30, isolation_level=None,
+            conn = sqlite3.connect(self.path, timeout=0, isolation_level=None,
                                    check_same_thread=False)
-            conn.execute("PRAGMA journal_mode=WAL")
-            conn.execute("PRAGMA synchronous=NORMAL")
-            conn.execute("CREATE TABLE IF NOT EXISTS results (key TEXT PRIMARY KEY, value TEXT NOT NULL)")
+            try:
+                conn.execute("PRAGMA busy_timeout=0")
+                conn.execute("PRAGMA journal_mode=WAL")
+                conn.execute("PRAGMA synchronous=NORMAL")
+                conn.execute("CREATE TABLE IF NOT EXISTS results "
+                             "(key TEXT PRIMARY KEY, value TEXT NOT NULL)")
+            except BaseException:
+                conn.close()
+                raise
+            try:
+                st = os.stat(self.path)
+                self._ident = (st.st_dev, st.st_ino)
+            except OSError:
+                self._ident = None
             self._conn = conn
         return self._conn
 
-    def get(self, key: str):
-        if not enabled():
+    def _close_quietly(self):
+        if self._conn is not None:
+            try:
+                self._conn.close()
+            except Exception:  # noqa: BLE001 - closing a broken connection
+                pass
+            self._conn = None
+
+    def _disable(self, why: str) -> None:
+        self._close_quietly()
+        if self.off is not None:
+            return
+        self.off = why
+        self.warning = f"result cache off ({why}): {self.path}; carrying on without it"
+        if self.warn is not None:
+            self.warn(self.warning)
+        else:
+            import warnings
+            warnings.warn(self.warning, CacheWarning, stacklevel=4)
+
+    def _set_aside(self) -> bool:
+        """Move a corrupt database (and its -wal/-shm) aside; True if a fresh start is possible."""
+        self._close_quietly()
+        if self.set_aside is not None:
+            return False                     # corrupt again right after a fresh start: give up
+        try:
+            st = os.stat(self.path)
+            if self._ident is not None and (st.st_dev, st.st_ino) != self._ident:
+                self.set_aside = "(replaced by another process)"
+                return True                  # someone else already set it aside
+            if not self.path.is_file():
+                return False
+            aside = self.path.with_name(f"{self.path.name}.corrupt-{time.strftime('%Y%m%d-%H%M%S')}"
+                                        f"-{os.getpid()}")
+            os.replace(self.path, aside)
+            for extra in ("-wal", "-shm"):
+                try:
+                    os.replace(str(self.path) + extra, str(aside) + extra)
+                except OSError:
+                    pass
+        except OSError:
+            return False
+        self.set_aside = str(aside)
+        self._ident = None
+        return True
+
+    def _guard(self, op, default):
+        """Run ``op(connection)``; every problem turns the store off and gives ``default``."""
+        if self.off is not None or not enabled():
+            return default
+        pause = 0.005
+        while True:
+            try:
+                sqlite3 = _sqlite()
+            except ImportError:
+                self._disable("this Python has no sqlite3 module")
+                return default
+            try:
+                return op(self._db())
+            except sqlite3.DatabaseError as e:
+                code = getattr(e, "sqlite_errorcode", None)
+                text = str(e)
+                if (code is not None and code & 0xFF in _BUSY_CODES) or (
+                        code is None and ("locked" in text or "busy" in text)):
+                    self._close_quietly()
+                    left = self.budget - self.waited
+                    if left <= 0:
+                        self._disable("locked by another process")
+                        return default
+                    step = min(pause, left)
+                    time.sleep(step)
+                    self.waited += step
+                    pause = min(pause * 2, 0.1)
+                    continue
+                if (code is not None and code & 0xFF in _CORRUPT_CODES) or (
+                        code is None and ("not a database" in text or "malformed" in text)):
+                    if self._set_aside():
+                        self._warn_once_aside()
+                        continue
+                    self._disable(f"damaged database: {text}")
+                    return default
+                self._disable(text or type(e).__name__)
+                return default
+            except OSError as e:
+                self._disable(f"cannot use its folder: {e.strerror or e}")
+                return default
+            except (ValueError, MemoryError) as e:
+                self._disable(f"{type(e).__name__}: {e}")
+                return default
+
+    def _warn_once_aside(self):
+        msg = (f"result cache was damaged; moved aside to {self.set_aside} and started afresh")
+        if self.warn is not None:
+            self.warn(msg)
+        else:
+            import warnings
+            warnings.warn(msg, CacheWarning, stacklevel=5)
+
+    @staticmethod
+    def _decode(text):
+        try:
+            return json.loads(text)
+        except (TypeError, ValueError, RecursionError):
             return None
-        row = self._db().execute("SELECT value FROM results WHERE key = ?", (key,)).fetchone()
-        return None if row is None else json.loads(row[0])
+
+    # -- public
+    def get(self, key: str):
+        def op(db):
+            row = db.execute("SELECT value FROM results WHERE key = ?", (key,)).fetchone()
+            return None if row is None else self._decode(row[0])
+        return self._guard(op, None)
 
     def get_many(self, keys) -> dict:
-        if not enabled():
-            return {}
         keys = list(keys)
-        out = {}
-        db = self._db()
-        for i in range(0, len(keys), 500):
-            chunk = keys[i:i + 500]
-            marks = ",".join("?" * len(chunk))
-            for k, v in db.execute(f"SELECT key, value FROM results WHERE key IN ({marks})", chunk):
-                out[k] = json.loads(v)
-        return out
+
+        def op(db):
+            out = {}
+            for i in range(0, len(keys), 500):
+                chunk = keys[i:i + 500]
+                marks = ",".join("?" * len(chunk))
+                for k, v in db.execute(f"SELECT key, value FROM results WHERE key IN ({marks})", chunk):
+                    value = self._decode(v)
+                    if value is not None:
+                        out[k] = value
+            return out
+        return self._guard(op, {})
 
     def put_many(self, items: dict) -> None:
-        if not enabled() or not items:
+        if not items:
             return
-        db = self._db()
-        rows = [(k, json.dumps(v, separators=(",", ":"))) for k, v in items.items()]
-        db.execute("BEGIN IMMEDIATE")
         try:
-            db.executemany("INSERT INTO results(key, value) VALUES(?, ?) "
-                           "ON CONFLICT(key) DO UPDATE SET value = excluded.value", rows)
-            db.execute("COMMIT")
-        except BaseException:
-            db.execute("ROLLBACK")
-            raise
+            rows = [(k, json.dumps(v, separators=(",", ":"), allow_nan=True)) for k, v in items.items()]
+        except (TypeError, ValueError, RecursionError):
+            return                            # a value that cannot be stored is simply not cached
+
+        def op(db):
+            db.execute("BEGIN IMMEDIATE")
+            try:
+                db.executemany("INSERT INTO results(key, value) VALUES(?, ?) "
+                               "ON CONFLICT(key) DO UPDATE SET value = excluded.value", rows)
+                db.execute("COMMIT")
+            except BaseException:
+                try:
+                    db.execute("ROLLBACK")
+                except Exception:  # noqa: BLE001 - the error that matters is re-raised
+                    pass
+                raise
+        self._guard(op, None)
 
     def put(self, key: str, value) -> None:
         self.put_many({key: value})
 
     def close(self):
-        if self._conn is not None:
-            self._conn.close()
-            self._conn = None
+        self._close_quietly()

@@ -1,8 +1,11 @@
 """The small evaluator's arithmetic: cell values, + - * / ^ %, and native functions.
 
 ``_num`` reads a value as a number the way a cell formula does; ``_binop`` and
-``_elementwise`` apply operators to scalars or item by item to rows; ``_NATIVE``
-lists the few native functions fill computes itself (PI, SQRT, EXP, LN, ABS ...).
+``_elementwise`` apply operators (arithmetic, ``&``, comparisons) to scalars or item
+by item to rows; ``_NATIVE`` lists the native functions fill computes item by item
+(PI, SQRT, EXP, LN, ATAN2, ROUND, ERFC ...), ``_AGGREGATE`` those over whole ranges
+(SUM, MAX, MIN, AVERAGE, COUNT, AND, OR, SUMPRODUCT); IF and IFERROR are evaluated
+lazily by the run.
 ``_normalise`` turns what one of our functions returned into a cell value or rows.
 """
 from __future__ import annotations
@@ -112,12 +115,56 @@ def _div(a: Any, b: Any) -> float:
     return _finite(_num(a) / y)
 
 
-_OPS: dict[str, Callable[[Any, Any], float]] = {
+def _text(v: Any) -> str:
+    """A value as text, as ``&`` turns it into text: up to 15 significant digits."""
+    if v is None:
+        return ""
+    if type(v) is bool:
+        return "TRUE" if v else "FALSE"
+    if isinstance(v, str):
+        return v
+    x = _num(v)
+    if x == int(x) and abs(x) < 1e15:
+        return str(int(x))
+    text = format(x, ".15g")
+    if "e" in text:
+        mant, exp = text.split("e")
+        text = f"{mant}E{'-' if exp.startswith('-') else '+'}{exp.lstrip('+-').lstrip('0').zfill(2)}"
+    return text
+
+
+def _concat(a: Any, b: Any) -> str:
+    return _text(a) + _text(b)
+
+
+def _rank(v: Any) -> tuple[int, Any]:
+    # Excel orders numbers < text < logical values; text compares without case
+    if type(v) is bool:
+        return 2, v
+    if isinstance(v, str):
+        return 1, v.casefold()
+    return 0, _num(v)
+
+
+def _compare(op: str) -> Callable[[Any, Any], bool]:
+    def apply(a: Any, b: Any) -> bool:
+        if a is None:                   # an empty cell is 0, "" or FALSE, as the other side needs
+            a = "" if isinstance(b, str) else (False if type(b) is bool else 0.0)
+        if b is None:
+            b = "" if isinstance(a, str) else (False if type(a) is bool else 0.0)
+        x, y = _rank(a), _rank(b)
+        return {"=": x == y, "<>": x != y, "<": x < y, ">": x > y, "<=": x <= y, ">=": x >= y}[op]
+    return apply
+
+
+_OPS: dict[str, Callable[[Any, Any], Any]] = {
     "+": lambda a, b: _finite(_num(a) + _num(b)),
     "-": lambda a, b: _finite(_num(a) - _num(b)),
     "*": lambda a, b: _finite(_num(a) * _num(b)),
     "/": _div,
     "^": _pow,
+    "&": _concat,
+    **{op: _compare(op) for op in ("=", "<>", "<", ">", "<=", ">=")},
 }
 
 
@@ -169,7 +216,147 @@ def _any(x: float) -> bool:
     return True
 
 
+def _truth(v: Any) -> bool:
+    """A condition the way IF, AND and NOT read it."""
+    if type(v) is bool:
+        return v
+    if v is None:
+        return False
+    if isinstance(v, str):
+        if v.upper() in ("TRUE", "FALSE"):
+            return v.upper() == "TRUE"
+        raise WorkbookError(f"the text {v!r} is used as a condition")
+    return _num(v) != 0
+
+
+def _numbers(values: list[Any], name: str) -> list[float]:
+    """The numbers SUM, MAX, MIN, AVERAGE and COUNT see: in ranges only numbers count;
+    typed arguments are read as numbers (TRUE is 1, numeric text its number)."""
+    out: list[float] = []
+    for v in values:
+        if type(v) is list:
+            out += [float(x) for row in v for x in row
+                    if isinstance(x, (int, float)) and type(x) is not bool]
+        elif v is not None:
+            out.append(_num(v))
+    return out
+
+
+def _average(values: list[Any]) -> float:
+    xs = _numbers(values, "AVERAGE")
+    if not xs:
+        raise WorkbookError("AVERAGE of no numbers (division by zero)")
+    return _finite(math.fsum(xs) / len(xs))
+
+
+def _count(values: list[Any]) -> float:
+    n = 0
+    for v in values:
+        if type(v) is list:
+            n += sum(1 for row in v for x in row if isinstance(x, (int, float)) and type(x) is not bool)
+        elif isinstance(v, (int, float)):
+            n += 1
+        elif isinstance(v, str):
+            try:
+                float(v)
+                n += 1
+            except ValueError:
+                pass
+    return float(n)
+
+
+def _logical(values: list[Any], name: str) -> list[bool]:
+    out: list[bool] = []
+    for v in values:
+        if type(v) is list:
+            out += [bool(x) for row in v for x in row if isinstance(x, (bool, int, float))]
+        elif v is not None:
+            out.append(_truth(v))
+    if not out:
+        raise WorkbookError(f"{name} has no logical values to look at")
+    return out
+
+
+def _sumproduct(values: list[Any]) -> float:
+    grids = [v if type(v) is list else [[v]] for v in values]
+    shape = (len(grids[0]), len(grids[0][0]))
+    if any((len(g), len(g[0])) != shape for g in grids):
+        raise WorkbookError("SUMPRODUCT of ranges of different sizes")
+    total = []
+    for i in range(shape[0]):
+        for j in range(shape[1]):
+            p = 1.0
+            for g in grids:
+                x = g[i][j]
+                p *= float(x) if isinstance(x, (int, float)) and type(x) is not bool else 0.0
+            total.append(p)
+    return _finite(math.fsum(total))
+
+
+def _round(x: Any, digits: Any = 0.0) -> float:
+    """Half away from zero on the shortest decimal form of x, as spreadsheets round."""
+    from decimal import ROUND_HALF_UP, Decimal
+    n = int(_num(digits))
+    d = Decimal(repr(_num(x)))
+    return float(d.quantize(Decimal(1).scaleb(-n), rounding=ROUND_HALF_UP))
+
+
+def _mod(a: Any, b: Any) -> float:
+    x, y = _num(a), _num(b)
+    if y == 0:
+        raise WorkbookError("MOD by zero (division by zero)")
+    return _finite(x - y * math.floor(x / y))
+
+
+def _atan2(x: Any, y: Any) -> float:
+    a, b = _num(x), _num(y)
+    if a == 0 and b == 0:
+        raise WorkbookError("ATAN2(0, 0) (division by zero)")
+    return math.atan2(b, a)             # the spreadsheet order is ATAN2(x, y)
+
+
+def _log(x: Any, base: Any = 10.0) -> float:
+    a, b = _num(x), _num(base)
+    if a <= 0 or b <= 0 or b == 1:
+        raise WorkbookError(f"LOG of {a:g} to base {b:g}: the number or the base is not valid")
+    return math.log(a) / math.log(b)
+
+
+def _erf(lo: Any, hi: Any = None) -> float:
+    return math.erf(_num(lo)) if hi is None else math.erf(_num(hi)) - math.erf(_num(lo))
+
+
+#: functions over their whole argument list (ranges are not taken item by item)
+_AGGREGATE: dict[str, tuple[int, int, Callable[[list[Any]], Any]]] = {
+    "SUM": (1, 255, lambda vs: _finite(math.fsum(_numbers(vs, "SUM")))),
+    "MAX": (1, 255, lambda vs: max(_numbers(vs, "MAX"), default=0.0)),
+    "MIN": (1, 255, lambda vs: min(_numbers(vs, "MIN"), default=0.0)),
+    "AVERAGE": (1, 255, _average),
+    "COUNT": (1, 255, _count),
+    "AND": (1, 255, lambda vs: all(_logical(vs, "AND"))),
+    "OR": (1, 255, lambda vs: any(_logical(vs, "OR"))),
+    "SUMPRODUCT": (1, 255, _sumproduct),
+}
+
 _NATIVE: dict[str, tuple[int, int, Callable[..., Any]]] = {
+    "ATAN2": (2, 2, _atan2),
+    "LOG": (1, 2, _log),
+    "ROUND": (2, 2, _round),
+    "INT": (1, 1, lambda v: float(math.floor(_num(v)))),
+    "MOD": (2, 2, _mod),
+    "SIGN": (1, 1, lambda v: float((_num(v) > 0) - (_num(v) < 0))),
+    "ERF": (1, 2, _erf),
+    "ERFC": (1, 1, lambda v: math.erfc(_num(v))),
+    "NOT": (1, 1, lambda v: not _truth(v)),
+    "CONCATENATE": (1, 255, lambda *vs: "".join(_text(v) for v in vs)),
+    "LEN": (1, 1, lambda v: float(len(_text(v)))),
+    "ASIN": (1, 1, _checked("ASIN", math.asin, lambda x: -1 <= x <= 1, "outside -1..1")),
+    "ACOS": (1, 1, _checked("ACOS", math.acos, lambda x: -1 <= x <= 1, "outside -1..1")),
+    "SINH": (1, 1, _checked("SINH", math.sinh, _any, "")),
+    "COSH": (1, 1, _checked("COSH", math.cosh, _any, "")),
+    "TANH": (1, 1, _checked("TANH", math.tanh, _any, "")),
+    "DEGREES": (1, 1, _checked("DEGREES", math.degrees, _any, "")),
+    "RADIANS": (1, 1, _checked("RADIANS", math.radians, _any, "")),
     "PI": (0, 0, lambda: math.pi),
     "SQRT": (1, 1, _checked("SQRT", math.sqrt, lambda x: x >= 0, "the number is negative")),
     "EXP": (1, 1, _checked("EXP", math.exp, _any, "")),

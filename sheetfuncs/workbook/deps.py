@@ -81,8 +81,13 @@ class Reach:
             elif isinstance(node, (Neg, Percent)):
                 self.rects(node.operand, sheet, out, depth)
             elif isinstance(node, BinOp):
-                self.rects(node.left, sheet, out, depth)
-                self.rects(node.right, sheet, out, depth)
+                rights = []
+                while isinstance(node, BinOp):      # along the left spine, without recursion
+                    rights.append(node.right)
+                    node = node.left
+                self.rects(node, sheet, out, depth)
+                for r in reversed(rights):
+                    self.rects(r, sheet, out, depth)
         except WorkbookError:
             pass
         return out

@@ -139,7 +139,9 @@ def _depth(tree: Node) -> int:
         node, d = todo.pop()
         deepest = max(deepest, d)
         if isinstance(node, BinOp):
-            todo += [(node.left, d + 1), (node.right, d + 1)]
+            # a chain such as A1+A2+...+An is walked along its left spine without
+            # recursion (by every walker), so it counts as one level, not n
+            todo += [(node.left, d if isinstance(node.left, BinOp) else d + 1), (node.right, d + 1)]
         elif isinstance(node, (Neg, Percent)):
             todo.append((node.operand, d + 1))
         elif isinstance(node, Call):

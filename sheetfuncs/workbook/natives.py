@@ -124,8 +124,10 @@ class _NativeCells:
         sheet, r, c = key
         try:
             v = self._value(self.reach.tree(self.book.cells[sheet][(r, c)].text, sheet), sheet, 0)
-        except _Unsupported:
-            return _Err(self._cannot(key, self._depends(key)))
+        except _Unsupported as exc:
+            what = getattr(exc, "what", None)
+            why = f"{what} is not among the functions fill computes" if what else exc.message
+            return _Err(self._cannot(key, self._depends(key), why))
         except _Located as exc:
             return _Err(exc.message)
         except Exception as exc:
@@ -135,10 +137,11 @@ class _NativeCells:
         return 0.0 if v is None else v          # =A1 of an empty A1 shows 0
 
     @staticmethod
-    def _cannot(key: Key, depends: bool) -> str:
+    def _cannot(key: Key, depends: bool, why: str = "") -> str:
         label = cell_label(*key)
+        why = f" ({why})" if why else ""
         if depends:
             return (f"cell {label} holds a formula that fill cannot compute and that uses results "
-                    "of this run; keep it to + - * / ^ and PI, SQRT, EXP, LN, ABS")
-        return (f"cell {label} holds a formula that fill cannot compute; "
+                    f"of this run{why}; see docs/fill.md for the functions fill computes")
+        return (f"cell {label} holds a formula that fill cannot compute{why}; "
                 "type its value or use a defined constant")

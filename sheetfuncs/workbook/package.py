@@ -53,13 +53,24 @@ __all__ = ["CellWrite", "Package", "read_package", "write_results", "defined_nam
 NONFINITE_TEXT = "SF! not a finite number"
 MAX_FILE_BYTES = 1 << 30        # refuse packages above 1 GiB
 MAX_XML_BYTES = 512 << 20       # refuse to parse a single XML part above 512 MiB
+MAX_UNPACKED_BYTES = 1 << 30    # refuse packages whose parts inflate to more than 1 GiB in all
+BOMB_MIN_BYTES = 32 << 20       # a part above 32 MiB that inflates more than
+BOMB_RATIO = 200                # 200 times its compressed size is refused as a zip bomb
 MAX_TEXT = 32767                # longest cell text Excel accepts
 MAX_ROW, MAX_COL = 1_048_576, 16_384
+#: temp files are ``TEMP_PREFIX + name[:40] + ".PID.RANDOM.tmp"`` next to the output, so a
+#: later run can tell (by the process id) which ones a killed run left behind
+TEMP_PREFIX = ".~"
 
 _OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
 _ENCRYPTED_STREAM = "EncryptedPackage".encode("utf-16-le")
 _REF_RE = re.compile(r"^\$?([A-Za-z]{1,3})\$?([0-9]{1,7})$")
 _BAD_XML_CHARS = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
+# a DOCTYPE must come before the root element, so looking at the start of a part is enough
+_DOCTYPE_WINDOW = 1 << 16
+_DOCTYPE = re.compile(rb"<!DOCTYPE", re.IGNORECASE)
+_DOCTYPE16 = re.compile("<!DOCTYPE".encode("utf-16-le").replace(b"\0", b"\0?"), re.IGNORECASE)
+_CELL_TAG = re.compile(rb"<(?:[A-Za-z_][\w.-]*:)?c[\s>/]")
 _PARSER = etree.XMLParser(resolve_entities=False, no_network=True, load_dtd=False)
 
 
@@ -102,6 +113,8 @@ class Package:
         if len(set(names)) != len(names):
             raise WorkbookError("damaged package (a zip member appears twice)", file=file)
         self._lower = {n.lower(): n for n in names}
+        self._check_sizes()
+        self._check_doctypes()
         self.workbook_part = self._find_workbook_part()
         self._sheets = self._read_sheet_list()
 
@@ -118,6 +131,39 @@ class Package:
         if path is None:
             raise WorkbookError(f"the XML part of sheet '{name}' is missing", file=self.file)
         return path
+
+    def worksheet_parts(self) -> list[str]:
+        return [path for _name, kind, path in self._sheets if kind == "worksheet" and path]
+
+    def count_cells(self, stop: int | None = None) -> int:
+        """Cells stored in the worksheets (``<c>`` elements), counted on the compressed
+        stream in 1 MiB chunks, so memory stays flat whatever the size; counting ends
+        early once above ``stop``."""
+        total = 0
+        for member in self.worksheet_parts():
+            try:
+                with self._zip.open(self._info(member)) as fh:
+                    tail = b""
+                    while True:
+                        chunk = fh.read(1 << 20)
+                        if not chunk:
+                            break
+                        data = tail + chunk
+                        # a tag holds one "<", at its start: tags before the last "<" are whole
+                        cut = data.rfind(b"<")
+                        if cut < 0:
+                            tail = b""
+                            continue
+                        total += len(_CELL_TAG.findall(data, 0, cut))
+                        tail = data[cut:]
+                        if len(tail) > 4096:          # no tag is that long: not a cell tag
+                            tail = b""
+                        if stop is not None and total > stop:
+                            return total
+                    total += len(_CELL_TAG.findall(tail))
+            except (zipfile.BadZipFile, zlib.error, EOFError, OSError) as e:
+                raise WorkbookError(f"damaged package: cannot read '{member}' ({e})", file=self.file) from None
+        return total
 
     def member_names(self) -> list[str]:
         """Zip member names in package order."""
@@ -140,12 +186,56 @@ class Package:
         info = self._info(member)
         if info.file_size > MAX_XML_BYTES:
             raise WorkbookError(f"part '{member}' is too large ({info.file_size} bytes)", file=self.file)
+        data = self.read(member)
+        if _DOCTYPE.search(data[:_DOCTYPE_WINDOW]) or _DOCTYPE16.search(data[:2 * _DOCTYPE_WINDOW]):
+            raise WorkbookError(f"part '{member}' has a document type declaration (<!DOCTYPE>), "
+                                "which workbooks never use; refused (nothing written)", file=self.file)
         try:
-            return etree.fromstring(self.read(member), _PARSER)
+            root = etree.fromstring(data, _PARSER)
         except etree.XMLSyntaxError as e:
             raise WorkbookError(f"damaged XML in '{member}': {e}", file=self.file) from None
+        if root.getroottree().docinfo.doctype:
+            raise WorkbookError(f"part '{member}' has a document type declaration (<!DOCTYPE>), "
+                                "which workbooks never use; refused (nothing written)", file=self.file)
+        return root
 
     # -- internals
+    def _check_doctypes(self) -> None:
+        """Refuse a DOCTYPE in any XML part before anything (openpyxl included) parses it:
+        entity definitions are how XML bombs and entity leaks work, and no workbook needs one."""
+        for info in self._infos:
+            if not info.filename.lower().endswith((".xml", ".rels", ".vml")) or info.is_dir():
+                continue
+            try:
+                with self._zip.open(info) as fh:
+                    head = fh.read(2 * _DOCTYPE_WINDOW)
+            except (zipfile.BadZipFile, zlib.error, EOFError, OSError, RuntimeError, NotImplementedError):
+                continue                # reported as damaged when the part is needed
+            if _DOCTYPE.search(head) or _DOCTYPE16.search(head):
+                raise WorkbookError(f"part '{info.filename}' has a document type declaration "
+                                    "(<!DOCTYPE>), which workbooks never use; refused (nothing written)",
+                                    file=self.file)
+
+    def _check_sizes(self) -> None:
+        """Refuse parts that inflate far beyond the package before anything inflates them.
+        zipfile never gives more than a member's declared size (and checks it), so the
+        declared sizes bound what reading can cost."""
+        total = 0
+        for info in self._infos:
+            total += info.file_size
+            if info.file_size > MAX_XML_BYTES:
+                raise WorkbookError(f"part '{info.filename}' inflates to {info.file_size:,} bytes, above "
+                                    f"the limit of {MAX_XML_BYTES:,}; refused (nothing written)",
+                                    file=self.file)
+            if (info.file_size > BOMB_MIN_BYTES
+                    and info.file_size > BOMB_RATIO * max(info.compress_size, 1)):
+                raise WorkbookError(f"part '{info.filename}' inflates {info.file_size // max(info.compress_size, 1):,}"
+                                    f" times ({info.compress_size:,} -> {info.file_size:,} bytes), like a "
+                                    "zip bomb; refused (nothing written)", file=self.file)
+        if total > MAX_UNPACKED_BYTES:
+            raise WorkbookError(f"the package inflates to {total:,} bytes, above the limit of "
+                                f"{MAX_UNPACKED_BYTES:,}; refused (nothing written)", file=self.file)
+
     def _info(self, member: str) -> zipfile.ZipInfo:
         real = self._lower.get(member.lower())
         if real is None:
@@ -620,7 +710,8 @@ def write_results(src, dst, writes: Iterable[CellWrite], *, calc_full_on_load_of
 def _write_zip(pkg: Package, dst: Path, patched: dict[str, bytes]) -> None:
     folder = dst.parent if str(dst.parent) else Path(".")
     try:
-        fd, tmp = tempfile.mkstemp(prefix=".~" + dst.name[:40] + ".", suffix=".tmp", dir=folder)
+        fd, tmp = tempfile.mkstemp(prefix=f"{TEMP_PREFIX}{dst.name[:40]}.{os.getpid()}.",
+                                   suffix=".tmp", dir=folder)
     except OSError as e:
         raise WorkbookError(f"cannot write in this folder ({e.strerror or e})", file=str(dst)) from None
     try:
@@ -644,10 +735,16 @@ def _write_zip(pkg: Package, dst: Path, patched: dict[str, bytes]) -> None:
             if bad is not None or len(check.infolist()) != len(pkg._infos):
                 raise WorkbookError(f"written package failed its check ({bad})", file=str(dst))
         try:
-            mode = (dst.stat() if dst.exists() else Path(pkg.file).stat()).st_mode & 0o7777
+            old = dst.stat() if dst.exists() else None
+            mode = (old or Path(pkg.file).stat()).st_mode & 0o7777
         except OSError:
-            mode = 0o644
+            old, mode = None, 0o644
         os.chmod(tmp, mode)
+        if old is not None and hasattr(os, "chown"):
+            try:                    # keep the owner of a file we replace (possible as root)
+                os.chown(tmp, old.st_uid, old.st_gid)
+            except OSError:
+                pass
         os.replace(tmp, dst)
     except WorkbookError:
         _unlink(tmp)

@@ -11,12 +11,14 @@ Choices
 * A formula the tokenizer cannot read, or whose structure is broken, makes
   ``scan`` raise ``WorkbookError`` naming file and cell; ``evaluate`` reports
   it as that cell's error and carries on with the others.
-* An array result spills down and right over empty cells and constants (the
-  writer stores spilled cells as constants, so a second run must overwrite
-  them); a formula cell or another result in the way is an error, as Excel's
-  #SPILL! is.  Constants inside a spill an earlier fill recorded (defined names
-  ``_sfspill...``) read as empty unless a new result covers them, since the
-  writer empties them.
+* An array result spills down and right over empty cells only, and over the
+  constants of a spill an earlier fill recorded (defined names ``_sfspill...``;
+  the writer stores spilled cells as constants, so a second run overwrites
+  them).  Any other cell in the way -- the user's text, number or error value,
+  a formula, another result -- blocks it: the anchor gets an error naming the
+  first blocking cell (row by row) and no blocking cell is touched, as Excel's
+  #SPILL! does.  Constants inside a recorded spill read as empty unless a new
+  result covers them, since the writer empties them.
 * A cell holding a native formula gives its cached value, unless it depends on
   cells computed in this run (the cache would be stale); then, or without a
   cache, it is computed with the small evaluator (+ - * / ^ %, PI, SQRT, EXP,
@@ -87,7 +89,7 @@ def scan(book_or_path: Any, *, prefix: str = "SF_") -> list[Job]:
 
 def evaluate(book_or_path: Any, functions: Mapping[str, Callable[..., Any]], *, prefix: str = "SF_",
              error_text: Callable[[Exception], str], strict: bool = False,
-             natives: dict | None = None) -> list[Outcome]:
+             natives: dict | None = None, not_computed: dict | None = None) -> list[Outcome]:
     """Compute every cell ``scan`` finds (in the same order); one bad cell never stops the run.
 
     ``book_or_path``: a path, an openpyxl Workbook (then there are no cached
@@ -100,7 +102,7 @@ def evaluate(book_or_path: Any, functions: Mapping[str, Callable[..., Any]], *, 
     ``natives``: a dict to receive ``(sheet, ref) -> value`` for the cells
     holding native formulas that the small evaluator can compute (numbers and
     text; after our results, so formulas over them are current).  The others
-    are left out.
+    are left out; ``not_computed`` (a dict) receives ``(sheet, ref) -> reason`` for them.
     """
     book = _r.open_book(book_or_path)
     items = _collect(book, prefix)
@@ -120,25 +122,32 @@ def evaluate(book_or_path: Any, functions: Mapping[str, Callable[..., Any]], *, 
         else:                                                   # pragma: no cover - defensive
             out.append(Outcome(it.sheet, it.ref, None, error_text(WorkbookError("not computed"))))
     if natives is not None:
-        natives.update(_native_values(run, book))
+        natives.update(_native_values(run, book, not_computed))
     return out
 
 
-def _native_values(run: _Run, book: _r.Book) -> dict:
+def _native_values(run: _Run, book: _r.Book, missing: dict | None = None) -> dict:
     out = {}
+    missing = {} if missing is None else missing
     run.job_memo.clear()
     run.current = None
     for sheet in book.sheets:
         for pos, cell in book.cells[sheet].items():
             if type(cell) is not Formula or (sheet, pos[0], pos[1]) in run.anchor or cell.text is None:
                 continue
+            ref = f"{_r.column_letters(pos[1])}{pos[0]}"
             try:
                 value = run._native((sheet, pos[0], pos[1]))
-            except Exception:  # noqa: BLE001 - not computable here: left to the spreadsheet
+            except Exception as exc:  # noqa: BLE001 - not computable here: left to the spreadsheet
+                missing[(sheet, ref)] = getattr(exc, "message", None) or str(exc) or type(exc).__name__
                 continue
-            if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+            if isinstance(value, bool):
+                missing[(sheet, ref)] = "a logical value (TRUE/FALSE): computed, not cached"
                 continue
-            out[(sheet, f"{_r.column_letters(pos[1])}{pos[0]}")] = value
+            if not isinstance(value, (int, float, str)):
+                missing[(sheet, ref)] = f"a value of type {type(value).__name__}"
+                continue
+            out[(sheet, ref)] = value
     return out
 
 
@@ -208,5 +217,10 @@ def _labels(node: Any) -> Iterator[str]:
     elif t is Neg or t is Percent:
         yield from _labels(node.operand)
     elif t is BinOp:
-        yield from _labels(node.left)
-        yield from _labels(node.right)
+        rights = []
+        while type(node) is BinOp:          # along the left spine, without recursion
+            rights.append(node.right)
+            node = node.left
+        yield from _labels(node)
+        for r in reversed(rights):
+            yield from _labels(r)

@@ -11,8 +11,8 @@ from typing import Any, Callable, Mapping
 
 from sheetfuncs.errors import ParameterError, WorkbookError
 from sheetfuncs.workbook import refs as _r
-from sheetfuncs.workbook.calc import (_NATIVE, _arity_text, _binop, _cell_value, _elementwise, _Located,
-                                      _neg, _normalise, _percent, _Unsupported)
+from sheetfuncs.workbook.calc import (_AGGREGATE, _NATIVE, _arity_text, _binop, _cell_value, _elementwise,
+                                      _Located, _neg, _normalise, _percent, _truth, _Unsupported)
 from sheetfuncs.workbook.deps import MAX_NAME_DEPTH, Reach
 from sheetfuncs.workbook.formula import (ArrayLit, BinOp, Bool, Call, ErrorLit, Missing, Neg, Num,
                                          Percent, Text, Unsupported)
@@ -23,6 +23,9 @@ from sheetfuncs.workbook.refs import NOTHING, ErrorValue, Formula, Key, Name, Re
 Rows = list[list[Any]]                  # an array value: rows of cell values
 
 _MAX_PASSES = 4
+#: most cells one range argument may cover (each becomes a value handed to the function)
+MAX_RANGE_CELLS = 1 << 20                # one whole column
+_CYCLE_SHOWN = 12                      # cells a cycle's message names
 
 
 class _Item:
@@ -95,7 +98,11 @@ class _Run(_NativeCells):
             cons = [hard[i] | forced[i] for i in range(n)]
             failed: dict[int, Exception] = dict(pre)
             for comp in _cycles(cons):
-                failed.update((i, WorkbookError(self._cycle_text(comp, hard))) for i in comp)
+                if len(comp) > 1:               # one text for the whole cycle (it can be long)
+                    exc = WorkbookError(self._cycle_text(comp, hard))
+                    failed.update((i, exc) for i in comp)
+                else:
+                    failed[comp[0]] = WorkbookError(self._cycle_text(comp, hard))
             self._pass(_order(cons, soft, failed), failed)
             bad = self._violations()
             if not bad:
@@ -121,7 +128,9 @@ class _Run(_NativeCells):
 
     def _cycle_text(self, comp: list[int], hard: list[set[int]]) -> str:
         if len(comp) > 1:
-            return "circular reference among " + ", ".join(self.items[i].label for i in comp)
+            shown = ", ".join(self.items[i].label for i in comp[:_CYCLE_SHOWN])
+            more = f" and {len(comp) - _CYCLE_SHOWN} more cells" if len(comp) > _CYCLE_SHOWN else ""
+            return f"circular reference among {shown}{more}"
         i = comp[0]
         if i in hard[i]:
             return f"circular reference: {self.items[i].label} refers to its own cell"
@@ -179,8 +188,17 @@ class _Run(_NativeCells):
         if t is Call:
             return self._call(node, sheet, depth)
         if t is BinOp:
-            return _binop(node.op, self._value(node.left, sheet, depth),
-                          self._value(node.right, sheet, depth))
+            if type(node.left) is not BinOp:
+                return _binop(node.op, self._value(node.left, sheet, depth),
+                              self._value(node.right, sheet, depth))
+            spine = []                      # a chain A+B+C..., left to right, without recursion
+            while type(node) is BinOp:
+                spine.append(node)
+                node = node.left
+            acc = self._value(node, sheet, depth)
+            for op in reversed(spine):
+                acc = _binop(op.op, acc, self._value(op.right, sheet, depth))
+            return acc
         if t is Neg:
             return _elementwise(_neg, [self._value(node.operand, sheet, depth)])
         if t is Percent:
@@ -239,6 +257,11 @@ class _Run(_NativeCells):
         memo = self.range_memo.get(rect)
         if memo is None:
             sheet, r1, c1, r2, c2 = rect
+            size = (r2 - r1 + 1) * (c2 - c1 + 1)
+            if size > MAX_RANGE_CELLS:
+                label = _r.ref_label(Ref(sheet, r1, c1, r2, c2))
+                raise WorkbookError(f"the range {label} has {size:,} cells, above fill's limit of "
+                                    f"{MAX_RANGE_CELLS:,}; use a range that covers only the data")
             grid = self.book.cells[sheet]
             read = self._read
             rows, plain_any = [], False
@@ -267,10 +290,20 @@ class _Run(_NativeCells):
             return _normalise(func(*values), name)
         if name == "ANCHORARRAY":
             return self._anchor_array(args)
+        if name in ("IF", "IFERROR"):
+            return self._if(name, args, sheet, depth)
+        agg = _AGGREGATE.get(name)
+        if agg is not None:
+            lo, hi, afn = agg
+            if not lo <= len(args) <= hi:
+                raise WorkbookError(f"{name} takes {lo} to {hi} arguments, but {len(args)} were given")
+            return afn([self._value(a, sheet, depth) for a in args])
         spec = _NATIVE.get(name)
         if spec is None:
-            raise _Unsupported(f"{name} cannot be computed by fill; compute it in a cell of "
+            exc = _Unsupported(f"{name} cannot be computed by fill; compute it in a cell of "
                                "its own and refer to that cell")
+            exc.what = name
+            raise exc
         lo, hi, fn = spec
         if not lo <= len(args) <= hi:
             want = f"{lo}" if lo == hi else f"{lo} or {hi}"
@@ -281,6 +314,27 @@ class _Run(_NativeCells):
             v = values[0]
             return v[0][0] if type(v) is list else v
         return _elementwise(fn, values)
+
+    def _if(self, name: str, args: tuple[Any, ...], sheet: str, depth: int) -> Any:
+        """IF(condition, then, else) and IFERROR(value, instead), computing only the branch taken."""
+        if name == "IF":
+            if not 2 <= len(args) <= 3:
+                raise WorkbookError(f"IF takes 2 or 3 arguments, but {len(args)} were given")
+            cond = self._value(args[0], sheet, depth)
+            if type(cond) is list:          # a range condition: item by item, both branches
+                rest = [self._value(a, sheet, depth) for a in args[1:]] + [False] * (3 - len(args))
+                return _elementwise(lambda c, a, b: a if _truth(c) else b, [cond, *rest])
+            if _truth(cond):
+                return self._value(args[1], sheet, depth)
+            return self._value(args[2], sheet, depth) if len(args) == 3 else False
+        if len(args) != 2:
+            raise WorkbookError(f"IFERROR takes 2 arguments, but {len(args)} were given")
+        try:
+            return self._value(args[0], sheet, depth)
+        except _Unsupported:
+            raise
+        except WorkbookError:
+            return self._value(args[1], sheet, depth)
 
     def _check_arity(self, name: str, func: Callable[..., Any], n: int) -> None:
         sig = self._sigs.get(name, NOTHING)
@@ -326,16 +380,24 @@ class _Run(_NativeCells):
         if it.row + m - 1 > _r.MAX_ROW or it.col + n - 1 > _r.MAX_COL:
             raise WorkbookError(f"the {m}x{n} result does not fit on the sheet from {it.ref}")
         grid = self.book.cells[it.sheet]
+        stale = self.stale
         for a in range(m):
             for b in range(n):
+                if not (a or b):
+                    continue
                 key = (it.sheet, it.row + a, it.col + b)
-                if (a or b) and (key in self.anchor or key in self.spilled
-                                 or type(grid.get(key[1:])) is Formula):
+                held = grid.get(key[1:])
+                if key in self.anchor or key in self.spilled or type(held) is Formula:
                     other = self.spilled.get(key)
                     why = (f"the result of {self.items[other[1]].label}" if other
                            else "a formula")
-                    raise WorkbookError(f"the {m}x{n} result cannot spill: {cell_label(*key)} "
-                                        f"holds {why}; move it or this formula")
+                elif held is not None and key not in stale:
+                    # the user's own value: never overwritten (Excel shows #SPILL! too)
+                    why = f"a value ({_shown(held)})"
+                else:
+                    continue
+                raise WorkbookError(f"the {m}x{n} result cannot spill: {cell_label(*key)} "
+                                    f"holds {why}; clear it or move this formula")
         for a in range(m):
             for b in range(n):
                 if a or b:
@@ -345,3 +407,11 @@ class _Run(_NativeCells):
         for rect in [k for k in self.range_memo if k[0] == it.sheet and k[1] <= r2
                      and it.row <= k[3] and k[2] <= c2 and it.col <= k[4]]:
             del self.range_memo[rect]
+
+
+def _shown(value: Any) -> str:
+    if isinstance(value, ErrorValue):
+        return f"the error {value.code}"
+    if isinstance(value, str):
+        return repr(value if len(value) <= 30 else value[:27] + "...")
+    return repr(value)
