@@ -149,8 +149,9 @@ def decompose(P, Qd, factors=None) -> Modal:
                 _numeric(f, gr, m, real, pairs, numeric_groups)
     real = [r for r in real if r.coeffs]
     pairs = [p for p in pairs if p.xs]
-    real.sort(key=lambda r: to_float(r.pole))
-    pairs.sort(key=lambda p: (to_float(p.alpha), to_float(p.omega)))
+    # dominant (slowest) modes first: the order an engineer reads a response in
+    real.sort(key=lambda r: -to_float(r.pole))
+    pairs.sort(key=lambda p: (-to_float(p.alpha), to_float(p.omega)))
     return Modal(direct, tuple(real), tuple(pairs), tuple(groups), exact, tuple(numeric_groups),
                  (P1, Qd) if not qp.is_zero(P1) else None)
 
