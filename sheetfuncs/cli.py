@@ -199,7 +199,7 @@ def _run(args):
         res = api.sample(args.expr, times, start=args.start, stop=args.stop, n=args.n,
                          input=args.input, params=params)
         d = res.to_dict()
-        return d if args.json else report.samples(res, digits=args.digits or 6)
+        return d if args.json else report.samples(res, digits=args.digits or 6, input=args.input)
     if args.command == "figures":
         rise = _floats(args.rise, "--rise")
         if len(rise) != 2:

@@ -9,6 +9,7 @@ from scipy import signal
 
 from sheetfuncs import cellfuncs as cf
 from sheetfuncs import cells
+from sheetfuncs.errors import ParameterError
 
 MARK = cf.ERROR_MARK
 
@@ -26,6 +27,51 @@ def test_params_range_and_units():
     txt = cf.inverse("1/(R C s + 1)", [["R [ohm]", 1000.0], ["C [F]", 1e-6], [None, None]], "sympy")
     t = sp.Symbol("t", real=True)
     assert sp.simplify(sp.sympify(txt, locals={"t": t}) - 1000 * sp.exp(-1000 * t)) == 0
+    # the same network with prefixed units in the labels (SI brochure prefixes k, u)
+    txt = cf.inverse("1/(R C s + 1)", [["R [kohm]", 1.0], ["C [uF]", 1.0]], "sympy")
+    assert sp.simplify(sp.sympify(txt, locals={"t": t}) - 1000 * sp.exp(-1000 * t)) == 0
+
+
+def test_params_units_convert_with_pint():
+    import pint
+    ureg = pint.UnitRegistry()
+    rows = [["m [g]", 250.0], ["t0 [ms]", 5.0], ["k [kN/m]", 18.0], ["c [N s/m]", 3.0], ["L [mH]", 10.0],
+            ["d [inch]", 2.0]]
+    got = cf.params_of(rows)
+    for (label, v), name in zip(rows, ("m", "t0", "k", "c", "L", "d")):
+        unit = label.split("[")[1].rstrip("]")
+        assert float(got[name]) == pytest.approx((v * ureg(unit)).to_base_units().magnitude, rel=1e-14)
+    assert cf.params_of([["T [degC]", 20.0]])["T"] == 20      # read as a temperature change: 20 K
+    for bad in ([["R [foo]", 1.0]], [["R (kohm)", 1.0]], [["R", 1.0], ["R", 2.0]], [["R [kohm]", "2*pi"]]):
+        with pytest.raises(ParameterError):
+            cf.params_of(bad)
+    assert cf.inverse("1/(R s+1)", [["R [blorb]", 1.0]]).startswith(MARK)
+
+
+def test_params_prefixed_values():
+    # SI brochure (BIPM), SI prefixes: k 10^3, n 10^-9, u (micro) 10^-6
+    f = cf.response("1/(R C s + 1)", 0.0, "impulse", [["R", "10k"], ["C", "22n"]])
+    assert f == pytest.approx(1 / (10e3 * 22e-9), rel=1e-12)
+    f = cf.response("1/(R C s + 1)", 0.0, "impulse", [["R [kohm]", "4.7"], ["C", "1.5u"]])
+    assert f == pytest.approx(1 / (4.7e3 * 1.5e-6), rel=1e-12)
+    assert cf.response("1/(R C s + 1)", 0.0, "impulse", [["R", "10K"], ["C", "22n"]]).startswith(MARK)
+
+
+def test_params_header_row_and_sweeps():
+    assert cf.params_of([["zeta", "wn"], [0.5, 2.0]]) == {"zeta": 0.5, "wn": 2.0}
+    sweep = [["zeta", "wn [kHz]"], [0.1, 1.0], [0.2, 1.0], [0.7, 1.0]]     # a fill-down range $A$1:$B4
+    got = cf.params_of(sweep)
+    assert got["zeta"] == 0.7 and float(got["wn"]) == 1000.0
+    assert cf.params_of([["name", "value"], ["R", 5.0]]) == {"R": 5.0}
+    assert cf.params_of([["R", 5.0, "C", 2.0]]) == {"R": 5.0, "C": 2.0}
+    with pytest.raises(ParameterError):
+        cf.params_of([["zeta", "wn"], [None, None]])             # the values row is empty
+    with pytest.raises(ParameterError):
+        cf.params_of([["zeta", None], [0.5, 3.0]])               # a value with no name above it
+    # overshoot of a damping sweep, each row passing its own row: 100 e^{-zeta pi/sqrt(1-zeta^2)}
+    for z in (0.1, 0.3, 0.5):
+        os_ = cf.figure("wn^2/(s^2 + 2 zeta wn s + wn^2)", "overshoot", "step", [["zeta", "wn"], [z, 3.0]])
+        assert os_ == pytest.approx(100 * math.exp(-z * math.pi / math.sqrt(1 - z * z)), rel=1e-9)
 
 
 def test_defined_names_context():
@@ -43,26 +89,62 @@ def test_response_scalar_matches_scipy_step():
 
 def test_response_table_shapes():
     rows = cf.response_table("1/(s+1)", 0.0, 2.0, 5.0, "step")
-    assert rows[0] == ["t", "y"] and len(rows) == 6
-    assert rows[-1][1] == pytest.approx(1 - math.exp(-2))
+    assert rows[0] == ["t [s]", "y, step response"] and len(rows) == 6
+    assert rows[-1][1] == pytest.approx(1 - math.exp(-2))              # 1 - e^-t (textbook pair)
     rows = cf.response_table("1/(s+1)", [[0.0], [1.0], [None], [3.0]])
+    assert rows[0][1] == "y, impulse response"                          # says which input it answers
     assert [r[0] for r in rows[1:]] == [0.0, 1.0, 3.0]
+    assert cf.response_table("1/(s+1)", 0.0, 1.0, 2.0, "5/s")[0][1] == "y, response to U(s) = 5/s"
 
 
 def test_partfrac_table_matches_scipy_residue():
-    r, p, k = signal.residue([2, 1], [1, 4, 10, 12, 5])          # (2s+1)/((s+1)^2 (s^2+2s+5))
-    rows = cf.partfrac_table("(2s+1)/((s+1)^2 (s^2+2s+5))")
-    assert rows[0] == ["pole", "order", "coefficient", "real-form term", "time term"]
-    simple = {complex(x) for x in p}
-    assert len(rows) - 1 == 4 and len(simple) >= 3
-    order2 = [row for row in rows[1:] if row[1] == 2]
-    assert order2 and order2[0][0] == "-1"
+    num, den = [2, 0, 0, 1], [1, 4, 10, 12, 5]                    # (2s^3+1)/((s+1)^2 (s^2+2s+5))
+    r, p, _k = signal.residue(num, den)
+    rows = cf.partfrac_table("(2s^3+1)/((s+1)^2 (s^2+2s+5))")
+    assert rows[0] == cf.PARTFRAC_HEADS
+    assert [row[2] for row in rows[1:]] == ["real pole", "real pole", "complex pair"]   # one row per pair
+    for row in rows[1:]:
+        pole = row[3] if isinstance(row[3], float) else complex(row[3].replace("i", "j"))
+        coef = row[5] if isinstance(row[5], float) else complex(row[5].replace("i", "j"))
+        # scipy's residue lists a repeated pole once per power, in increasing power
+        idx = [i for i, q in enumerate(p) if abs(q - pole) < 1e-6][row[4] - 1]
+        assert coef == pytest.approx(complex(r[idx]), abs=1e-6), row
+    assert isinstance(rows[1][3], float) and isinstance(rows[1][4], int) and isinstance(rows[1][5], float)
+    assert rows[3][3] == "-1+2i"                                       # the spreadsheet's complex text
+    # the pair's f(t) term is twice the real part of coefficient e^{pole t} (both conjugate terms)
+    c = complex(rows[3][5].replace("i", "j"))
+    f = sp.lambdify(sp.Symbol("t"), sp.sympify(rows[3][1].replace("^", "**")))
+    assert f(0.7) == pytest.approx(2 * (c * np.exp((-1 + 2j) * 0.7)).real, rel=1e-5)
 
 
-def test_poles_table_damping():
-    rows = cf.poles_table("4/(s^2+1.2s+4)")
-    assert rows[1][0] == "pole" and rows[1][4] == pytest.approx(0.3) and rows[1][5] == pytest.approx(2.0)
-    assert rows[-1][0] == "stability" and rows[-1][1].startswith("stable")
+def test_partfrac_polynomial_part():
+    rows = cf.partfrac_table("(s^2+3s+1)/(s+1)")                       # = s + 2 - 1/(s+1), by hand
+    assert [r[2] for r in rows[1:]] == ["polynomial part", "polynomial part", "real pole"]
+    assert [(r[4], r[5]) for r in rows[1:3]] == [(0, 2.0), (1, 1.0)] and rows[1][3] is None
+    assert rows[3][5] == -1.0
+
+
+def test_poles_table_one_row_per_mode():
+    zeta, wn = 0.3, 2.0                                # s^2 + 2 zeta wn s + wn^2 = s^2 + 1.2 s + 4
+    rows = cf.poles_table("(s+2)/((s^2+1.2s+4)(s+5))")
+    assert rows[0] == cf.POLES_HEADS
+    pair, real = rows[1], rows[2]                                       # slowest mode first
+    wd = wn * math.sqrt(1 - zeta ** 2)                                  # textbook second-order relations
+    assert pair[1] == "decaying oscillation" and pair[9] == 2
+    assert pair[2] == pytest.approx(-zeta * wn) and pair[3] == pytest.approx(wd)
+    assert pair[4] == pytest.approx(zeta) and pair[5] == pytest.approx(wn)
+    assert pair[6] == pytest.approx(2 * math.pi / wd) and pair[7] == pytest.approx(1 / (zeta * wn))
+    assert pair[8] == pytest.approx(math.log(50) / (zeta * wn))         # envelope to 2 %: tau ln 50
+    assert real[1] == "decay" and real[2] == pytest.approx(-5) and real[6] is None and real[9] == 1
+    assert rows[3][0] == "zero 1" and rows[3][2] == pytest.approx(-2) and rows[3][4] is None
+    assert rows[-1][:3] == ["stability", "stable", "all poles in the open left half-plane"]
+    assert all(v != "" and v != " " for row in rows for v in row)      # missing is None, never text
+
+
+def test_poles_table_integrator_and_repeated():
+    rows = cf.poles_table("1/(s (s+1)^2)")
+    assert rows[1][1] == "integrator (pole at 0)" and rows[1][7] is None
+    assert rows[2][1] == "decay (repeated x2)" and rows[2][9] == 2
 
 
 def test_figures_single_and_block():
@@ -70,10 +152,37 @@ def test_figures_single_and_block():
     os_ = 100 * math.exp(-zeta * math.pi / math.sqrt(1 - zeta**2))     # common practice formula
     assert cf.figure("4/(s^2+1.2s+4)", "overshoot") == pytest.approx(os_, rel=1e-9)
     block = cf.figures_block("4/(s^2+1.2s+4)")
+    assert block[0] == ["figures of the step response", "value", "unit", "note"]
     labels = [r[0] for r in block]
-    assert "settling time" in labels and all(len(r) == 2 for r in block)
+    assert "settling time (2% band)" in labels and all(len(r) == 4 for r in block)
+    over = next(r for r in block if r[0] == "overshoot")
+    assert over[1] == pytest.approx(os_, rel=1e-9) and over[2] == "%"
     assert cf.figure("1/(s-1)", "final value").startswith(MARK)
     assert cf.figure("1/(s+1)", "nonsense").startswith(MARK)
+
+
+def test_missing_figures_are_empty_with_a_reason():
+    block = cf.figures_block("1/((s+1)(s+3))")                          # overdamped: no peak
+    peak = next(r for r in block if r[0] == "peak time")
+    assert peak[1] is None and "no peak" in peak[3]
+    assert cf.figure("1/((s+1)(s+3))", "peak time").startswith("none: no peak")
+    imp = cf.figures_block("1/(s+1)", "impulse")
+    assert imp[0][0] == "figures of the impulse response" and "settling" not in " ".join(r[0] for r in imp)
+    assert all(v != "" and v != " " for row in block + imp for v in row)
+
+
+def test_figure_output_units():
+    # first-order settling to 2 %: tau ln 50 (common practice), tau = R C from labelled inputs
+    p = [["R [kohm]", 10.0], ["C [nF]", 22.0]]
+    tau = 10e3 * 22e-9
+    assert cf.figure("1/(R C s + 1)", "settling time", "step", p) == pytest.approx(tau * math.log(50), rel=1e-9)
+    assert cf.figure("1/(R C s + 1)", "settling time [ms]", "step", p) == pytest.approx(0.8606, abs=1e-4)
+    assert cf.figure("1/(R C s + 1)", "settling time [us]", "step", p) == pytest.approx(860.645, rel=1e-5)
+    assert cf.figure("4/(s^2+1.2s+4)", "overshoot [%]") == pytest.approx(cf.figure("4/(s^2+1.2s+4)", "overshoot"))
+    assert cf.figure("2/(s+1)", "final value [mV]") == pytest.approx(2000.0)
+    assert cf.figure("1/(s+1)", "settling time [kg]").startswith(MARK)
+    assert cf.figure("1/(s+1)", "stability [s]").startswith(MARK)
+    assert cf.figure("1/(s+1)", "settling time [blorb]").startswith(MARK)
 
 
 def test_ode_functions():

@@ -287,7 +287,10 @@ def parse_params(params: Mapping[str, object] | None) -> dict[str, sp.Expr]:
 
 
 def param_value(name: str, value) -> sp.Expr:
-    """One parameter value as an exact SymPy number."""
+    """One parameter value as an exact SymPy number.
+
+    Text may be an SI-prefixed number (``'10k'``, ``'22n'``, ``'1.5meg'``: see ``sheetfuncs.units``)
+    or a constant expression (``'1/3'``, ``'2*pi'``)."""
     if isinstance(value, bool) or value is None:
         raise ParameterError(f"parameter '{name}' has no numeric value", name)
     if isinstance(value, int):
@@ -303,6 +306,10 @@ def param_value(name: str, value) -> sp.Expr:
             raise ParameterError(f"parameter '{name}' must be a number", name)
         return value
     if isinstance(value, str):
+        from ..units import prefixed_number          # '10k', '22n', '4.7u' (SI prefixes; values only)
+        prefixed = prefixed_number(value)
+        if prefixed is not None:
+            return sp.Rational(prefixed.numerator, prefixed.denominator)
         try:
             expr = _Parser(value.strip(), sp.Symbol("_novar"), {"sqrt": sp.sqrt, "exp": sp.exp,
                                                             "ln": sp.log, "log": sp.log}, {}).parse()
