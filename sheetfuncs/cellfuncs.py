@@ -417,7 +417,7 @@ def _missing_reason(f, attr) -> str:
     if attr == "final_value":
         return f.final_value_note or "no final value"
     if attr in ("peak_time", "peak_value") and f.overshoot_percent == 0:
-        return "no peak: the response never passes its final value"
+        return "no peak: no overshoot"
     if attr == "initial_value":
         return "no initial value (the response starts with an impulse)"
     if f.notes:
@@ -462,7 +462,7 @@ def figures_block(expr, input=None, params=None, band=None):
     value with the reason as its note."""
     f = _figures(expr, input, params, band)
     lo, hi = f.rise_band
-    rows = [[f"figures of the {report.input_words(f.input)}", "value", "unit", "note"]]
+    rows = [[report.input_words(f.input), "value", "unit", "note"]]
     for label, attr, unit in _BLOCK:
         if attr in _STEP_ONLY and f.input != "step":
             continue

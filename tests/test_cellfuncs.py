@@ -152,7 +152,7 @@ def test_figures_single_and_block():
     os_ = 100 * math.exp(-zeta * math.pi / math.sqrt(1 - zeta**2))     # common practice formula
     assert cf.figure("4/(s^2+1.2s+4)", "overshoot") == pytest.approx(os_, rel=1e-9)
     block = cf.figures_block("4/(s^2+1.2s+4)")
-    assert block[0] == ["figures of the step response", "value", "unit", "note"]
+    assert block[0] == ["step response", "value", "unit", "note"]
     labels = [r[0] for r in block]
     assert "settling time (2% band)" in labels and all(len(r) == 4 for r in block)
     over = next(r for r in block if r[0] == "overshoot")
@@ -167,7 +167,7 @@ def test_missing_figures_are_empty_with_a_reason():
     assert peak[1] is None and "no peak" in peak[3]
     assert cf.figure("1/((s+1)(s+3))", "peak time").startswith("none: no peak")
     imp = cf.figures_block("1/(s+1)", "impulse")
-    assert imp[0][0] == "figures of the impulse response" and "settling" not in " ".join(r[0] for r in imp)
+    assert imp[0][0] == "impulse response" and "settling" not in " ".join(r[0] for r in imp)
     assert all(v != "" and v != " " for row in block + imp for v in row)
 
 
