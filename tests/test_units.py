@@ -118,3 +118,12 @@ def test_prefixes_never_inside_expressions():
     res = api.invert("1/(2k s + 1)", {"k": 3})                      # 2k is 2*k: tau = 6
     t = next(iter(res.f_t.free_symbols))
     assert float(res.f_t.subs(t, 0)) == pytest.approx(1 / 6)
+
+
+def test_cli_param_units_give_the_rc_settling_time(capsys):
+    # first-order settling to 2 %: tau ln 50 (common practice), tau = RC = 10 kohm * 22 nF
+    assert main(["figures", "1/(R C s + 1)", "--param", "R [kohm]=10", "--param", "C [nF]=22", "--json"]) == 0
+    got = json.loads(capsys.readouterr().out)["settling_time"]
+    assert got == pytest.approx(10e3 * 22e-9 * math.log(50), rel=1e-9) and got == pytest.approx(0.86e-3, rel=1e-3)
+    assert main(["figures", "1/(R s + 1)", "--param", "R [blorb]=1"]) == 2
+    assert "blorb" in capsys.readouterr().err
