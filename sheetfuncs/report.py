@@ -39,9 +39,9 @@ def cell_number(z, digits=None):
     re, im = z
     if isinstance(re, str) or isinstance(im, str):
         return complex_text(z)
-    nd = digits or 15
+    nd = digits or 15                       # a spreadsheet keeps 15 significant digits
     if im == 0 or abs(im) <= 1e-14 * abs(re):
-        return float(f"{re:.{nd}g}")
+        return float(f"{re:.{digits}g}") if digits else float(re)
     r, i = f"{re:.{nd}G}", f"{abs(im):.{nd}G}"
     i = "" if i == "1" else i
     if re == 0:
