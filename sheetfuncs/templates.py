@@ -173,11 +173,15 @@ class _Calc:
         r = self.row if at is None else at
         rows, cols = room
         self.ws[f"{col}{r}"] = formula
-        for off in range(cols):                                      # header row: bold (tables: wrapped)
+        for off in range(cols):                # header row: bold, over its column's alignment
             cell = self.ws.cell(row=r, column=ord(col) - 64 + off)
             cell.font = _BOLD
-            if cols > 4:
-                cell.alignment = _WRAP
+            parts = (style or {}).get(off, ())
+            parts = parts if isinstance(parts, tuple) else (parts,)
+            side = next((a.horizontal for a in parts if isinstance(a, Alignment) and a.horizontal), None)
+            if side is None and any(isinstance(a, str) and a != "General" for a in parts):
+                side = "right"                                       # a number column
+            cell.alignment = Alignment(wrap_text=cols > 4, vertical="top", horizontal=side)
         for off, fmt in (style or {}).items():
             for rr in range(r + 1, r + rows):
                 cell = self.ws.cell(row=rr, column=ord(col) - 64 + off)
