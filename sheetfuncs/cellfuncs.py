@@ -396,11 +396,17 @@ FIGURE_NAMES = {
     "rise time": "rise_time", "peak time": "peak_time", "peak value": "peak_value",
     "overshoot": "overshoot_percent", "overshoot %": "overshoot_percent",
     "settling time": "settling_time", "stable": "stable", "stability": "stability",
+    # of the slowest (dominant) mode, as in the poles table
+    "damping ratio": "mode.damping_ratio", "natural frequency": "mode.natural_frequency",
+    "damped frequency": "mode.omega_d", "time constant": "mode.time_constant",
+    "decay time": "mode.decay_time",
 }
 #: what each figure is measured in (for an output unit in brackets: 'settling time [ms]')
 FIGURE_KINDS = {"final_value": units.VALUE, "initial_value": units.VALUE, "dc_gain": units.VALUE,
                 "peak_value": units.VALUE, "rise_time": units.TIME, "peak_time": units.TIME,
-                "settling_time": units.TIME, "overshoot_percent": units.PERCENT}
+                "settling_time": units.TIME, "overshoot_percent": units.PERCENT,
+                "mode.natural_frequency": units.FREQUENCY, "mode.omega_d": units.FREQUENCY,
+                "mode.time_constant": units.TIME, "mode.decay_time": units.TIME}
 _STEP_ONLY = ("rise_time", "peak_time", "peak_value", "overshoot_percent", "settling_time")
 _WHICH = re.compile(r"\s*([^\[\]]*?)\s*(?:\[([^\[\]]*)\])?\s*")
 
@@ -427,8 +433,9 @@ def _missing_reason(f, attr) -> str:
 
 @cell
 def figure(expr, which, input=None, params=None, band=None):
-    """One response figure by name (final value, overshoot, settling time ...); a unit in
-    brackets converts it: 'settling time [ms]', 'final value [mV]'."""
+    """One response figure by name (final value, overshoot, settling time ..., or damping ratio,
+    natural frequency, damped frequency, time constant, decay time of the slowest mode); a unit
+    in brackets converts it: 'settling time [ms]', 'final value [mV]', 'natural frequency [Hz]'."""
     m = _WHICH.fullmatch(_text(which, ""))
     key = (m.group(1) if m else _text(which, "")).lower().replace("_", " ")
     unit = m.group(2).strip() if m and m.group(2) and m.group(2).strip() else None
@@ -438,7 +445,15 @@ def figure(expr, which, input=None, params=None, band=None):
     if unit is not None and attr not in FIGURE_KINDS:
         raise ParameterError(f"the figure '{key}' takes no unit")
     f = _figures(expr, input, params, band)
-    value = getattr(f, attr)
+    if attr.startswith("mode."):
+        ms = report.modes(f.poles)
+        if not ms:
+            return f"{ERROR_MARK} no poles, so no {key}"
+        value = getattr(ms[0], attr[5:])
+        if value is None:
+            return f"none: the slowest mode ({ms[0].behaviour}) has no {key}"
+    else:
+        value = getattr(f, attr)
     if value is None:
         reason = _missing_reason(f, attr)
         return f"{ERROR_MARK} {reason}" if key == "final value" else f"none: {reason}"

@@ -180,6 +180,16 @@ def test_figure_output_units():
     assert cf.figure("1/(R C s + 1)", "settling time [us]", "step", p) == pytest.approx(860.645, rel=1e-5)
     assert cf.figure("4/(s^2+1.2s+4)", "overshoot [%]") == pytest.approx(cf.figure("4/(s^2+1.2s+4)", "overshoot"))
     assert cf.figure("2/(s+1)", "final value [mV]") == pytest.approx(2000.0)
+    # slowest mode of a mount m x'' + c x' + k x: wn = sqrt(k/m), zeta = c/(2 sqrt(k m)) (textbook),
+    # f = wn/(2 pi) in Hz
+    m, c, k = 45.0, 600.0, 180000.0
+    H, P = "1/(m s^2 + c s + k)", [["m", m], ["c", c], ["k [kN/m]", k / 1000]]
+    wn = math.sqrt(k / m)
+    assert cf.figure(H, "natural frequency", None, P) == pytest.approx(wn, rel=1e-12)
+    assert cf.figure(H, "natural frequency [Hz]", None, P) == pytest.approx(wn / (2 * math.pi), rel=1e-12)
+    assert cf.figure(H, "damping ratio", None, P) == pytest.approx(c / (2 * math.sqrt(k * m)), rel=1e-12)
+    assert cf.figure(H, "time constant [ms]", None, P) == pytest.approx(1e3 * 2 * m / c, rel=1e-12)
+    assert cf.figure("1/(s (s+1))", "time constant").startswith("none: the slowest mode")
     assert cf.figure("1/(s+1)", "settling time [kg]").startswith(MARK)
     assert cf.figure("1/(s+1)", "stability [s]").startswith(MARK)
     assert cf.figure("1/(s+1)", "settling time [blorb]").startswith(MARK)
