@@ -240,7 +240,7 @@ def samples(res, digits=6, input=None) -> str:
 
 
 MODE_HEADS = ("mode", "behaviour", "sigma [1/s]", "omega_d [rad/s]", "damping ratio",
-              "natural freq. [rad/s]", "period [s]", "time constant [s]", "2 % decay time [s]", "count")
+              "omega_n [rad/s]", "period [s]", "tau [s]", "2% decay [s]", "poles")
 
 
 def mode_table(f, digits=6) -> str:
@@ -252,7 +252,8 @@ def mode_table(f, digits=6) -> str:
 
 
 def figures(f, digits=6) -> str:
-    out = ["modes of F(s), slowest first (a complex pair is one mode: sigma \u00b1 j omega_d)",
+    out = ["modes of F(s), slowest first (a complex pair is one mode: sigma \u00b1 j omega_d; "
+           "omega_n natural frequency, tau time constant)",
            mode_table(f, digits)]
     zs = zero_modes(f.zeros)
     if zs:
