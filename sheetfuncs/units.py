@@ -15,9 +15,10 @@ Three things, all outside expressions (in an expression ``2k`` stays 2*k):
     (kilo is a lowercase ``k``).
 
 Output units of figures: ``convert_out(value, kind, unit)`` shows a figure found in SI (times in s,
-angular frequencies in rad/s, values in the SI unit of the output) in the unit asked for.  A
-frequency unit without an angle in it (``Hz``, ``kHz``, ``1/s``) is read as cycles per time, so
-``rad/s -> Hz`` divides by 2 pi (pint alone would not, as it takes the radian as 1).
+angular frequencies in rad/s, values in the SI unit of the output) in the unit asked for.  Hertz
+units (``Hz``, ``kHz``) are cycles per second, so ``rad/s -> Hz`` divides by 2 pi (pint alone
+would not, as it takes the radian as 1); ``rpm``, ``deg/s``, ``cycle/s`` go through pint, and a
+plain ``1/s`` is taken as rad/s.
 
 pint is imported on first use and its registry built once (it takes about half a second); factors
 are cached by unit text.
@@ -180,9 +181,14 @@ def _dim(unit: str) -> dict:
     return dict(_root(unit)[2])
 
 
-def _has_angle(unit: str) -> bool:
+def _is_cyclic(unit: str) -> bool:
+    """True for hertz-based units (Hz, kHz): cycles per second, per the SI brochure's use of the
+    hertz for periodic phenomena.  Units with an angle (rad/s, deg/s, rpm, cycle/s) are converted
+    by pint; plain 1/s is taken as rad/s."""
     names = registry().parse_units(unit)._units
-    return any(any(w in n for w in _ANGLE_WORDS) or n == "revolutions_per_minute" for n in names)
+    if any(any(w in n for w in _ANGLE_WORDS) or n == "revolutions_per_minute" for n in names):
+        return False
+    return any("hertz" in n for n in names)
 
 
 def convert_out(value: float, kind: str, unit: str) -> float:
@@ -199,7 +205,7 @@ def convert_out(value: float, kind: str, unit: str) -> float:
         if _dim(unit) != {"[time]": -1}:
             raise ParameterError(f"unit [{unit}] is not a unit of frequency (Hz, rad/s, 1/s, rpm ...)")
         v = float(value)
-        if kind == FREQUENCY and not _has_angle(unit):
+        if kind == FREQUENCY and _is_cyclic(unit):
             v = v / (2 * math.pi)                  # rad/s -> cycles per second
         return v / _root(unit)[0]
     if kind == PERCENT:

@@ -85,6 +85,8 @@ def test_output_units():
     assert units.convert_out(w, units.FREQUENCY, "Hz") == pytest.approx(50.0)       # f = omega/(2 pi)
     assert units.convert_out(w, units.FREQUENCY, "kHz") == pytest.approx(0.05)
     assert units.convert_out(w, units.FREQUENCY, "rad/s") == pytest.approx(w)
+    assert units.convert_out(w, units.FREQUENCY, "1/s") == pytest.approx(w)                # rad/s
+    assert units.convert_out(w, units.FREQUENCY, "cycle/s") == pytest.approx(50.0)         # pint
     assert units.convert_out(w, units.FREQUENCY, "rpm") == pytest.approx(
         UREG.Quantity(w, "rad/s").to("rpm").magnitude)                              # pint: 3000 rpm
     assert units.convert_out(8.6e-4, units.TIME, "ms") == pytest.approx(0.86)
