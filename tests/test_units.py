@@ -46,6 +46,8 @@ def test_param_value_reads_prefixes_exactly():
     assert param_value("x", "2*pi") > 6                              # constant expressions still read
     with pytest.raises(ParameterError):
         param_value("R", "10K")
+    with pytest.raises(ParameterError, match="label"):
+        param_value("C", "22 nF")                                    # units go in the label
 
 
 @pytest.mark.parametrize("unit", ["kohm", "uF", "nF", "g", "ms", "mH", "kN/m", "N s/m", "m^2/s", "inch",

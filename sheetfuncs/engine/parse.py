@@ -316,7 +316,10 @@ def param_value(name: str, value) -> sp.Expr:
         except ExpressionSyntaxError as exc:
             raise ParameterError(f"parameter '{name}': {exc.message}", name) from exc
         if expr.free_symbols:
-            raise ParameterError(f"parameter '{name}' value '{value}' is not a number", name)
+            hint = ""
+            if re.fullmatch(r"\s*[+-]?(\d+\.?\d*|\.\d+)\s*[A-Za-z\u00b5\u03bc\u03a9%/^ ]+\s*", value):
+                hint = f" (a unit goes in the label: '{name} [unit]'; values take SI prefixes only: 22n, 10k)"
+            raise ParameterError(f"parameter '{name}' value '{value}' is not a number{hint}", name)
         return expr
     try:
         return exact_number(repr(float(value)))
