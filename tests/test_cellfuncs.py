@@ -231,3 +231,28 @@ def test_xlwings_module_exposes_every_function():
     assert sorted(cells.CELL_FUNCTIONS) == sorted(cf.FUNCTIONS)
     assert cells.SF_RESPONSE("1/(s+1)", 0.0, "impulse") == 1.0
     assert cells.SF_FIGURE("3/(0.8s+1)", "final value") == pytest.approx(3.0)
+
+
+def test_sweep_in_a_filled_workbook(tmp_path):
+    """A damping sweep as an engineer lays it out: a header row of labels, one case per row, each
+    row's formula passing the range from the header down to its own row ($A$3:$B4, $A$3:$B5 ...).
+    Overshoot against the textbook 100 exp(-zeta pi / sqrt(1 - zeta^2))."""
+    import openpyxl
+    from sheetfuncs.fill import fill_workbook
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws["A1"] = "wn^2/(s^2 + 2 zeta wn s + wn^2)"
+    ws["A3"], ws["B3"], ws["C3"] = "zeta", "wn [krad/s]", "overshoot [%]"
+    zetas = [0.1, 0.2, 0.4, 0.6, 0.8]
+    for i, z in enumerate(zetas, start=4):
+        ws[f"A{i}"], ws[f"B{i}"] = z, 1.5
+        ws[f"C{i}"] = f'=SF_FIGURE($A$1,"overshoot","step",$A$3:$B{i})'
+        ws[f"D{i}"] = f'=SF_FIGURE($A$1,"peak time [ms]","step",$A$3:$B{i})'
+    wb.save(tmp_path / "sweep.xlsx")
+    report = fill_workbook(tmp_path / "sweep.xlsx", tmp_path / "out.xlsx", use_cache=False)
+    assert report.errors == 0, report.error_cells
+    out = openpyxl.load_workbook(tmp_path / "out.xlsx", data_only=True).active
+    for i, z in enumerate(zetas, start=4):
+        assert out[f"C{i}"].value == pytest.approx(100 * math.exp(-z * math.pi / math.sqrt(1 - z * z)), rel=1e-9)
+        wd = 1.5e3 * math.sqrt(1 - z * z)                       # wn = 1.5 krad/s
+        assert out[f"D{i}"].value == pytest.approx(1e3 * math.pi / wd, rel=1e-9)   # peak time pi/omega_d
