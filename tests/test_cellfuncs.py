@@ -256,3 +256,23 @@ def test_sweep_in_a_filled_workbook(tmp_path):
         assert out[f"C{i}"].value == pytest.approx(100 * math.exp(-z * math.pi / math.sqrt(1 - z * z)), rel=1e-9)
         wd = 1.5e3 * math.sqrt(1 - z * z)                       # wn = 1.5 krad/s
         assert out[f"D{i}"].value == pytest.approx(1e3 * math.pi / wd, rel=1e-9)   # peak time pi/omega_d
+
+
+def test_complex_texts_are_read_by_the_spreadsheet(tmp_path):
+    """The pole and coefficient texts of a complex pair, read back by LibreOffice's own IMREAL,
+    IMAGINARY and IMABS (the spreadsheet's complex-number functions); the pole of
+    (s+3)/(s^2+2s+5) is -1 + 2i (quadratic formula)."""
+    import openpyxl
+    from sheetfuncs.fill import fill_workbook
+    from tests import lo
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws["A1"] = '=SF_PARTFRAC("(s+3)/(s^2+2s+5)")'
+    ws["A5"], ws["B5"], ws["C5"] = "=IMREAL(D2)", "=IMAGINARY(D2)", "=IMABS(D2)"
+    wb.save(tmp_path / "c.xlsx")
+    assert fill_workbook(tmp_path / "c.xlsx", tmp_path / "out.xlsx", use_cache=False).errors == 0
+    lo.require_soffice()
+    rows = lo.to_csv_all_sheets(tmp_path / "out.xlsx", tmp_path)
+    row = next(iter(rows.values()))[4]
+    assert float(row[0]) == pytest.approx(-1) and float(row[1]) == pytest.approx(2)
+    assert float(row[2]) == pytest.approx(math.sqrt(5))
