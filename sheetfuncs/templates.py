@@ -224,8 +224,14 @@ def _fit_page(ws, landscape: bool = False) -> None:
         landscape = True
         ws.print_area = f"A1:{COLS[-1]}{ws.max_row}"
     if ws.title == "Response":
+        last = chr(64 + max(ws.max_column, 6))
         ws.print_title_rows = f"{R_HEAD}:{R_HEAD}"
-        ws.print_area = f"A1:{chr(64 + max(ws.max_column, 6))}{ws.max_row}"     # room for the title
+        ws.print_area = f"A1:{last}{ws.max_row}"                            # room for the title
+        note = str(ws["A2"].value or "")
+        width = sum(ws.column_dimensions[c].width or 8.43 for c in "ABCDEFGHIJ"[:ord(last) - 64])
+        ws.merge_cells(f"A2:{last}2")                                        # the note wraps on the page
+        ws["A2"].alignment = _WRAP
+        ws.row_dimensions[2].height = LINE * max(1, -(-len(note) // int(width)))
     ws.page_setup.orientation = "landscape" if landscape else "portrait"
     ws.page_setup.paperSize = ws.PAPERSIZE_A4
     ws.print_options.gridLines = False
