@@ -6,7 +6,7 @@ from dataclasses import dataclass
 
 import sympy as sp
 
-from .engine.results import number, pair
+from .engine.results import pair
 
 
 LN50 = math.log(50.0)          # a simple mode's envelope e^(sigma t) falls to 2 % after tau ln 50
