@@ -148,13 +148,14 @@ def si_units(unit: str) -> str:
 
 def to_si(value, unit: str | None):
     """``value`` (a number or SI-prefixed text) in ``unit`` as an exact SI Fraction.
-    Values of other kinds are returned unchanged (the parameter reader judges them)."""
+    Values of other kinds (None, TRUE/FALSE, non-finite) are returned unchanged for the parameter
+    reader to refuse with its own message."""
     if unit is None:
         return value
     factor = si_factor(unit)
     if isinstance(value, bool) or value is None:
         return value
-    if isinstance(value, int):
+    if isinstance(value, (int, Fraction)):
         return Fraction(value) * factor
     if isinstance(value, float):
         if not math.isfinite(value):
