@@ -24,13 +24,11 @@ from typing import Callable
 import numpy as np
 import sympy as sp
 
-from . import api
+from . import api, units
 from .engine import cache
-from .engine.invert import pair_time_term
 from .engine.parse import CONSTANTS, TIME_FUNCTIONS
-from .engine.partfrac import PairTerm
 from .engine.results import pair
-from .report import complex_text
+from . import report
 from .errors import ParameterError, SamplingError, SheetfuncsError, UnsupportedExpressionError
 
 PREFIX = "SF_"
@@ -147,26 +145,99 @@ def _rows(value) -> list[list]:
     return [list(r) for r in value]
 
 
+def _blank(c) -> bool:
+    return c is None or (isinstance(c, str) and not c.strip())
+
+
+#: value-column headings that mark a header row above a two-column name/value range
+_VALUE_HEADINGS = {"value", "values", "val", "number", "setting"}
+
+
+def _is_label(c) -> bool:
+    if not isinstance(c, str) or not c.strip():
+        return False
+    try:
+        units.label_of(c)
+    except ParameterError:
+        return False
+    return True
+
+
+def _is_value(c) -> bool:
+    """A cell that reads as a number (not a label): 1000.0, '10k', '4.7'."""
+    if isinstance(c, bool):
+        return False
+    if isinstance(c, (int, float)):
+        return True
+    if not isinstance(c, str):
+        return False
+    try:
+        return units.prefixed_number(c) is not None or bool(float(c.strip()) == float(c.strip()))
+    except (ParameterError, ValueError):
+        return False
+
+
+def _param(out: dict, where: dict, label, value, place: str) -> None:
+    """One labelled value into ``out``: the unit in the label converts the value to SI."""
+    if not isinstance(label, str) or not label.strip():
+        raise ParameterError(f"parameter {place}: the name must be text, got {label!r}")
+    name, unit = units.label_of(label)
+    if _blank(value):
+        raise ParameterError(f"parameter '{name}' has no value ({place})", name)
+    if name in where:
+        raise ParameterError(f"parameter '{name}' is given twice ({where[name]} and {place})", name)
+    where[name] = place
+    try:
+        out[name] = units.to_si(value, unit)
+    except ParameterError as exc:
+        raise ParameterError(f"parameter '{label.strip()}': {exc}", name) from None
+
+
 def params_of(value) -> dict:
-    """Parameters from a two-column name/value range (blank rows skipped),
-    over the workbook's defined names."""
+    """Parameters from a range, over the workbook's defined names.
+
+    Layouts (blank rows skipped):
+    - two columns, a name (``R`` or ``R [kohm]``) and a value in each row; a header row whose value
+      cell reads ``value`` is skipped;
+    - one row of name, value pairs;
+    - a header row of names over rows of values: the LAST row of the range gives the values, so a
+      sweep row passes ``$B$9:$D12`` (header fixed, its own row last) and fills down.
+    A unit in brackets converts the value to SI (``C [nF]`` = 22 is 22e-9); a unit pint cannot read
+    is an error.  Values may carry SI prefixes (``10k``, ``22n``, ``4.7u``, ``1.5meg``)."""
     out = dict(_names.get())
     rows = _rows(value)
-    if len(rows) == 1 and len(rows[0]) > 2 and len(rows[0]) % 2 == 0:
-        rows = [rows[0][i:i + 2] for i in range(0, len(rows[0]), 2)]     # a row of pairs
-    for i, row in enumerate(rows):
-        cells = [c for c in row]
-        if all(c is None or (isinstance(c, str) and not c.strip()) for c in cells):
-            continue
-        if len(cells) < 2:
+    where: dict = {}
+    filled = [(i, r) for i, r in enumerate(rows) if not all(_blank(c) for c in r)]
+    if not filled:
+        return out
+    if len(rows) == 1 and len(rows[0]) > 2 and len(rows[0]) % 2 == 0 and not all(map(_is_label, rows[0])):
+        row = rows[0]                                                       # a row of pairs
+        for k in range(0, len(row), 2):
+            if not (_blank(row[k]) and _blank(row[k + 1])):
+                _param(out, where, row[k], row[k + 1], f"pair {k // 2 + 1}")
+        return out
+    head_i, head = filled[0]
+    last = rows[-1]
+    wide = (len(rows) > 1 and head_i < len(rows) - 1 and all(_blank(c) or _is_label(c) for c in head)
+            and not (last and _is_label(last[0])))
+    if wide:
+        if all(_blank(c) for c in last):
+            raise ParameterError(f"parameter range: the values row (the last row, {len(rows)}) is empty")
+        for j, label in enumerate(head):
+            v = last[j] if j < len(last) else None
+            if _blank(label):
+                if not _blank(v):
+                    raise ParameterError(f"parameter range: column {j + 1} has a value but no name above it")
+                continue
+            _param(out, where, label, v, f"column {j + 1}")
+        return out
+    for i, row in filled:
+        if len(row) < 2:
             raise ParameterError(f"parameter row {i + 1} needs a name and a value (two columns)")
-        name, val = cells[0], cells[1]
-        if not isinstance(name, str) or not name.strip():
-            raise ParameterError(f"parameter row {i + 1}: the name must be text, got {name!r}")
-        name = name.strip().split(" ")[0].split("[")[0]      # 'R [ohm]' -> 'R'
-        if val is None or (isinstance(val, str) and not val.strip()):
-            raise ParameterError(f"parameter '{name}' has no value", name)
-        out[name] = val
+        if (i, row) == (head_i, head) and isinstance(row[1], str) \
+                and row[1].strip().lower().split("[")[0].strip() in _VALUE_HEADINGS:
+            continue                                                        # header row
+        _param(out, where, row[0], row[1], f"row {i + 1}")
     return out
 
 
@@ -185,16 +256,6 @@ def _vector(value, what) -> list[float]:
     if not out:
         raise ParameterError(f"{what} is empty")
     return out
-
-
-def _fmt(x, digits):
-    if x is None:
-        return ""
-    if isinstance(x, bool):
-        return x
-    if isinstance(x, str):
-        return x
-    return float(f"{x:.{digits}g}") if digits else float(x)
 
 
 # ---------------------------------------------------------------- functions
@@ -231,61 +292,59 @@ def sheet_formula(expr, tref=None, params=None, digits=None):
     return api.excel_formula(res, ref, digits=_number(digits, "digits", 15, integer=True))
 
 
+def _num(x, digits=None):
+    """A real number for a table cell (rounded only when digits are asked for); None stays empty."""
+    if x is None:
+        return None
+    return float(f"{x:.{digits}g}") if digits else float(x)
+
+
+PARTFRAC_HEADS = ["term in s", "f(t) term, t >= 0", "kind", "pole", "power", "coefficient"]
+
+
 @cell
 def partfrac_table(expr, params=None, digits=None):
-    """Rows: pole, order, coefficient, real-form term, time term (header first)."""
+    """One row per piece: term in s, its f(t) term, kind (polynomial part, real pole, complex
+    pair), pole, power, coefficient (header first).  A complex pair is one row, given by its
+    pole with Im > 0; poles and coefficients are numbers, or complex text such as -1+2i."""
     from .printing import to_display
-    nd = _number(digits, "digits", 6, integer=True)
+    nd = _number(digits, "digits", 0, integer=True) or None
     res = api.invert(_expr(expr), params_of(params))
     if not res.pieces or len(res.pieces) != 1 or res.pieces[0].delay != 0:
         raise UnsupportedExpressionError("a partial-fraction table needs a rational F(s) without delay")
-    dec = res.pieces[0].decomposition
-    rows = [["pole", "order", "coefficient", "real-form term", "time term"]]
-    s = sp.Symbol("s")
-    for i, c in enumerate(dec.direct):
-        if c != 0:
-            rows.append(["(polynomial part)", i, complex_text(pair(c), nd), to_display(c * s ** i, digits=nd),
-                         to_display(c * (sp.DiracDelta(sp.Symbol("t")) if i == 0 else sp.DiracDelta(sp.Symbol("t"), i)), digits=nd)])
-    for pt in dec.pair_terms:
-        real_form, time_term = _real_form(pt), pair_time_term(pt)
-        for j, term in enumerate(_terms_of(pt)):
-            rows.append([complex_text(pair(term.pole), nd), term.order, complex_text(pair(term.coefficient), nd),
-                         to_display(real_form, digits=nd) if j == 0 else "(with the row above)",
-                         to_display(time_term, digits=nd) if j == 0 else "(with the row above)"])
+    piece = res.pieces[0]
+    rows = [list(PARTFRAC_HEADS)]
+    for r in report.fraction_rows(piece.decomposition, piece.gain):
+        rows.append([to_display(r.s_term, digits=nd or 6), to_display(r.t_term, digits=nd or 6), r.kind,
+                     None if r.pole is None else report.cell_number(pair(r.pole), nd), r.power,
+                     report.cell_number(pair(r.coefficient), nd)])
     return rows
 
 
-def _terms_of(pt: PairTerm):
-    from .engine.partfrac import pair_to_terms
-    return pair_to_terms(pt)
-
-
-def _real_form(pt: PairTerm):
-    """The pair's two complex terms as one real fraction N(s)/D(s)^k."""
-    s = sp.Symbol("s")
-    terms = _terms_of(pt)
-    if len(terms) == 1:
-        t = terms[0]
-        return t.coefficient / (s - t.pole) ** t.order
-    a, b = terms
-    num = sp.expand(a.coefficient * (s - b.pole) ** pt.order + b.coefficient * (s - a.pole) ** pt.order)
-    den = sp.expand((s - a.pole) * (s - b.pole))
-    return num / den ** pt.order
+POLES_HEADS = ["mode", "behaviour", "sigma = Re p [1/s]", "omega_d = |Im p| [rad/s]", "damping ratio",
+               "natural frequency [rad/s]", "period [s]", "time constant [s]", "2 % decay time [s]",
+               "poles in mode"]
 
 
 @cell
 def poles_table(expr, params=None, digits=None):
-    """Rows: kind, real, imaginary, multiplicity, damping ratio, natural frequency, time constant."""
+    """One row per mode (a real pole or a complex pair sigma +- j omega_d), slowest first:
+    behaviour, sigma, omega_d, damping ratio, natural frequency, period, time constant, time for
+    the envelope to fall to 2 %, number of poles; then the zeros; last row the stability."""
     nd = _number(digits, "digits", 0, integer=True) or None
     f = api.figures(_expr(expr), params_of(params), input="impulse")
-    rows = [["kind", "real part", "imaginary part", "multiplicity", "damping ratio",
-             "natural frequency (rad/s)", "time constant"]]
-    for p in f.poles:
-        rows.append(["pole", _fmt(p.pole.real, nd), _fmt(p.pole.imag, nd), p.multiplicity,
-                     _fmt(p.damping_ratio, nd), _fmt(p.natural_frequency, nd), _fmt(p.time_constant, nd)])
-    for z in f.zeros:
-        rows.append(["zero", _fmt(z.real, nd), _fmt(z.imag, nd), 1, "", "", ""])
-    rows.append(["stability", f.stability, "", "", "", "", ""])
+    rows = [list(POLES_HEADS)]
+    for k, m in enumerate(report.modes(f.poles)):
+        count = m.poles * m.multiplicity
+        rows.append([k + 1, m.behaviour + (f" (repeated x{m.multiplicity})" if m.multiplicity > 1 else ""),
+                     _num(m.sigma, nd), _num(m.omega_d, nd), _num(m.damping_ratio, nd),
+                     _num(m.natural_frequency, nd), _num(m.period, nd), _num(m.time_constant, nd),
+                     _num(m.decay_time, nd), count])
+    for k, (a, b, n) in enumerate(report.zero_modes(f.zeros)):
+        rows.append([f"zero {k + 1}", "zero pair" if b else "zero", _num(a, nd), _num(b, nd),
+                     None, None, None, None, None, n * (2 if b else 1)])
+    verdict, _, why = f.stability.partition(" (")
+    rows.append(["stability", verdict, why.rstrip(")") or None] + [None] * 7)
     return rows
 
 
@@ -327,8 +386,8 @@ def response_table(expr, times, stop=None, n=None, input=None, params=None):
         raise SamplingError(f"{grid.size} rows is above the limit of {MAX_TABLE_ROWS}")
     res = _response_result(e, _input(input), params_of(params))
     out = sample_result(res, grid)
-    rows = [["t", "y"]]
-    rows += [[float(a), float(b) if math.isfinite(b) else ""] for a, b in zip(out.t, out.y)]
+    rows = [["t [s]", f"y, {report.input_words(_input(input))}"]]
+    rows += [[float(a), float(b) if math.isfinite(b) else None] for a, b in zip(out.t, out.y)]
     return rows
 
 
@@ -337,11 +396,19 @@ FIGURE_NAMES = {
     "rise time": "rise_time", "peak time": "peak_time", "peak value": "peak_value",
     "overshoot": "overshoot_percent", "overshoot %": "overshoot_percent",
     "settling time": "settling_time", "stable": "stable", "stability": "stability",
+    # of the slowest (dominant) mode, as in the poles table
+    "damping ratio": "mode.damping_ratio", "natural frequency": "mode.natural_frequency",
+    "damped frequency": "mode.omega_d", "time constant": "mode.time_constant",
+    "decay time": "mode.decay_time",
 }
-_FIGURE_LABELS = [("DC gain", "dc_gain"), ("initial value", "initial_value"), ("final value", "final_value"),
-                  ("rise time", "rise_time"), ("peak time", "peak_time"), ("peak value", "peak_value"),
-                  ("overshoot %", "overshoot_percent"), ("settling time", "settling_time"),
-                  ("stability", "stability")]
+#: what each figure is measured in (for an output unit in brackets: 'settling time [ms]')
+FIGURE_KINDS = {"final_value": units.VALUE, "initial_value": units.VALUE, "dc_gain": units.VALUE,
+                "peak_value": units.VALUE, "rise_time": units.TIME, "peak_time": units.TIME,
+                "settling_time": units.TIME, "overshoot_percent": units.PERCENT,
+                "mode.natural_frequency": units.FREQUENCY, "mode.omega_d": units.FREQUENCY,
+                "mode.time_constant": units.TIME, "mode.decay_time": units.TIME}
+_STEP_ONLY = ("rise_time", "peak_time", "peak_value", "overshoot_percent", "settling_time")
+_WHICH = re.compile(r"\s*([^\[\]]*?)\s*(?:\[([^\[\]]*)\])?\s*")
 
 
 def _figures(expr, input, params, band):
@@ -349,31 +416,76 @@ def _figures(expr, input, params, band):
                        settle=_number(band, "settling band", 0.02))
 
 
+def _missing_reason(f, attr) -> str:
+    """Why a figure has no value, in a few words."""
+    if attr in _STEP_ONLY and f.input != "step":
+        return f"step figures only (this is the {report.input_words(f.input)})"
+    if attr == "final_value":
+        return f.final_value_note or "no final value"
+    if attr in ("peak_time", "peak_value") and f.overshoot_percent == 0:
+        return "no peak: no overshoot"
+    if attr == "initial_value":
+        return "no initial value (the response starts with an impulse)"
+    if f.notes:
+        return f.notes[0]
+    return "does not exist for this response"
+
+
 @cell
 def figure(expr, which, input=None, params=None, band=None):
-    """One response figure by name (final value, overshoot, settling time ...)."""
-    key = _text(which, "").lower().replace("_", " ")
+    """One response figure by name (final value, overshoot, settling time ..., or damping ratio,
+    natural frequency, damped frequency, time constant, decay time of the slowest mode); a unit
+    in brackets converts it: 'settling time [ms]', 'final value [mV]', 'natural frequency [Hz]'."""
+    m = _WHICH.fullmatch(_text(which, ""))
+    key = (m.group(1) if m else _text(which, "")).lower().replace("_", " ")
+    unit = m.group(2).strip() if m and m.group(2) and m.group(2).strip() else None
     if key not in FIGURE_NAMES:
         raise ParameterError(f"unknown figure '{which}'; use one of: {', '.join(sorted(set(FIGURE_NAMES)))}")
+    attr = FIGURE_NAMES[key]
+    if unit is not None and attr not in FIGURE_KINDS:
+        raise ParameterError(f"the figure '{key}' takes no unit")
     f = _figures(expr, input, params, band)
-    value = getattr(f, FIGURE_NAMES[key])
+    if attr.startswith("mode."):
+        ms = report.modes(f.poles)
+        if not ms:
+            return f"{ERROR_MARK} no poles, so no {key}"
+        value = getattr(ms[0], attr[5:])
+        if value is None:
+            return f"none: the slowest mode ({ms[0].behaviour}) has no {key}"
+    else:
+        value = getattr(f, attr)
     if value is None:
-        return f"{ERROR_MARK} {f.final_value_note}" if key == "final value" else ""
+        reason = _missing_reason(f, attr)
+        return f"{ERROR_MARK} {reason}" if key == "final value" else f"none: {reason}"
     if isinstance(value, bool):
         return 1 if value else 0
+    if unit is not None:
+        return units.convert_out(value, FIGURE_KINDS[attr], unit)
     return value
+
+
+_BLOCK = [("DC gain", "dc_gain", ""), ("initial value", "initial_value", ""),
+          ("final value", "final_value", ""), ("rise time ({lo:.0%} to {hi:.0%})", "rise_time", "s"),
+          ("peak time", "peak_time", "s"), ("peak value", "peak_value", ""),
+          ("overshoot", "overshoot_percent", "%"), ("settling time ({band:.0%} band)", "settling_time", "s")]
 
 
 @cell
 def figures_block(expr, input=None, params=None, band=None):
-    """A labelled two-column block of the response figures."""
+    """Header row (which response), then one row per figure: label, value, unit, note; the last
+    row is the stability verdict with its reason.  A figure that does not exist is an empty
+    value with the reason as its note."""
     f = _figures(expr, input, params, band)
-    rows = []
-    for label, attr in _FIGURE_LABELS:
-        if attr in ("rise_time", "peak_time", "peak_value", "overshoot_percent", "settling_time") and f.input != "step":
+    lo, hi = f.rise_band
+    rows = [[report.input_words(f.input), "value", "unit", "note"]]
+    for label, attr, unit in _BLOCK:
+        if attr in _STEP_ONLY and f.input != "step":
             continue
         v = getattr(f, attr)
-        rows.append([label, "" if v is None else v])
+        rows.append([label.format(lo=lo, hi=hi, band=f.settling_band), None if v is None else float(v),
+                     unit or None, _missing_reason(f, attr) if v is None else None])
+    verdict, _, why = f.stability.partition(" (")
+    rows.append(["stability", verdict, None, why.rstrip(")") or None])
     return rows
 
 

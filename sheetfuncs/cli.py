@@ -25,12 +25,19 @@ class _Parser(argparse.ArgumentParser):
 
 
 def _params(items) -> dict:
-    out = {}
+    """--param NAME=VALUE or 'NAME [unit]=VALUE': the unit converts the value to SI (pint); values
+    may carry SI prefixes (R=10k, C=22n)."""
+    from . import units
+    out, where = {}, {}
     for item in items or []:
         if "=" not in item:
             raise _UsageError(f"--param needs NAME=VALUE, got '{item}'")
-        name, value = item.split("=", 1)
-        out[name.strip()] = value.strip()
+        label, value = item.split("=", 1)
+        name, unit = units.label_of(label)
+        if name in where:
+            raise _UsageError(f"--param {name} is given twice ('{where[name]}' and '{item}')")
+        where[name] = item
+        out[name] = units.to_si(value.strip(), unit) if unit else value.strip()
     return out
 
 
@@ -54,7 +61,8 @@ def build_parser() -> argparse.ArgumentParser:
     def common(sp_, expr=True):
         if expr:
             sp_.add_argument("expr", metavar="EXPR", help="F(s), e.g. '(s+3)/(s^2+2s+5)'")
-        sp_.add_argument("--param", action="append", metavar="NAME=VALUE", help="parameter value")
+        sp_.add_argument("--param", action="append", metavar="NAME=VALUE",
+                         help="parameter value: R=10k, 'C [nF]=22' (unit in brackets, to SI)")
         sp_.add_argument("--json", action="store_true", help="print JSON")
         sp_.add_argument("--digits", type=int, default=None, help="significant digits of numbers")
         sp_.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
@@ -76,7 +84,8 @@ def build_parser() -> argparse.ArgumentParser:
     c = sub.add_parser("figures", help="poles, stability, gains and step-response figures")
     common(c)
     c.add_argument("--input", default="step", help="impulse, step, ramp or U(s)")
-    c.add_argument("--band", type=float, default=0.02, help="settling band (fraction, default 0.02)")
+    c.add_argument("--band", type=float, default=0.02,
+                   help="settling band, a fraction of the final value (default 0.02); cells: band")
     c.add_argument("--rise", default="0.1,0.9", help="rise-time levels LOW,HIGH (default 0.1,0.9)")
 
     c = sub.add_parser("ode", help="solve a linear ODE with initial conditions by the Laplace route")
@@ -257,7 +266,7 @@ def _run(args):
         res = api.sample(args.expr, times, start=args.start, stop=args.stop, n=args.n,
                          input=args.input, params=params)
         d = res.to_dict()
-        return d if args.json else report.samples(res, digits=args.digits or 6)
+        return d if args.json else report.samples(res, digits=args.digits or 6, input=args.input)
     if args.command == "figures":
         rise = _floats(args.rise, "--rise")
         if len(rise) != 2:

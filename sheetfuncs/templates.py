@@ -23,6 +23,7 @@ from openpyxl import Workbook
 from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.workbook.defined_name import DefinedName
+from openpyxl.worksheet.pagebreak import Break
 from openpyxl.worksheet.properties import PageSetupProperties
 
 FIXED_TIME = _dt.datetime(2024, 1, 1, 0, 0, 0)
@@ -30,10 +31,15 @@ CAUTION = ("CAUTION - analysis aid only: these results support engineering judge
            "safety-relevant designs follow local codes and licensed review.")
 FILL_NOTE = ("Cells with SF_ formulas are computed by 'sheetfuncs fill BOOK.xlsx -o OUT.xlsx' "
              "(or live in Excel with the sheetfuncs add-in); native formulas compute themselves.")
-WIDTHS = {"A": 34, "B": 18, "C": 16, "D": 44, "E": 18, "F": 24, "G": 16}
-TABLE_ROOM = (13, 7)                  # rows x columns kept empty for a spilling table
-BLOCK_ROOM = (10, 3)                  # ... and for an SF_FIGURES block
-SCI = "0.0000E+00"
+WIDTHS = {"A": 42, "B": 24, "C": 14, "D": 26, "E": 24, "F": 16, "G": 13, "H": 13, "I": 13, "J": 9}
+COLS = "ABCDEFGHIJ"                   # the printed width of the Calculation sheet
+TABLE_ROOM = (13, 10)                 # rows x columns kept empty for a spilling table
+BLOCK_ROOM = (11, 4)                  # ... and for an SF_FIGURES block
+SCI = "0.0E+00"                       # tiny deviations (self-check)
+ENG = "##0.00E+0"                     # engineering notation: exponent a multiple of 3 (424.63E-6)
+#: scientific formats of the builders shown in engineering notation instead
+_ENGINEERING = {"0.000E+00": ENG, "0.00E+00": ENG, "0.0000E+00": ENG}
+LINE = 15                             # points per line of wrapped text
 
 # Response sheet: start/step cells, header row, first data row, number of rows
 R_START, R_STEP, R_HEAD, R_FIRST, N_ROWS = "B3", "B4", 6, 7, 201
@@ -44,14 +50,20 @@ _CAUTION_FILL = PatternFill("solid", fgColor="FFF2CC")
 _SECTION_FILL = PatternFill("solid", fgColor="DDEBF7")
 _INPUT_FILL = PatternFill("solid", fgColor="E2EFDA")
 _WRAP = Alignment(wrap_text=True, vertical="top")
-_CENTER = Alignment(horizontal="center")
+_CENTER = Alignment(horizontal="center", vertical="top")
+_TOP = Alignment(vertical="top")
+_RIGHT = Alignment(horizontal="right", vertical="top")          # numbers and complex texts alike
+_LEFT = Alignment(horizontal="left", vertical="top")
 _THIN = Side(style="thin", color="A6A6A6")
 _BOX = Border(left=_THIN, right=_THIN, top=_THIN, bottom=_THIN)
 
 #: styles of the cells a table spills into, by column offset from its anchor
-POLES_STYLE = {1: SCI, 2: SCI, 3: _CENTER, 4: "0.0000", 5: SCI, 6: SCI}
-PARTFRAC_STYLE = {1: _CENTER}
-BLOCK_STYLE = {1: SCI}
+#: (a style is a number format, an Alignment, or a tuple of both); the header row is bold and wrapped
+POLES_STYLE = {0: _LEFT, 2: ENG, 3: ENG, 4: "0.0000", 5: ENG, 6: ENG, 7: ENG, 8: ENG, 9: _CENTER}
+PARTFRAC_STYLE = {0: _WRAP, 1: _WRAP, 2: _TOP, 3: ("General", _RIGHT), 4: _CENTER, 5: ("General", _RIGHT)}
+BLOCK_STYLE = {1: ENG, 2: _CENTER}
+#: rows of a spilled table that get room for wrapped text (header, then data rows), in lines
+HEAD_LINES, BODY_LINES, BODY_TALL_ROWS = 2, 3, 4
 
 
 def _abs(cell: str) -> str:
@@ -74,7 +86,7 @@ class _Calc:
         ws["A2"] = purpose
         ws["A3"] = CAUTION
         ws["A3"].font, ws["A3"].fill, ws["A3"].alignment = _BOLD, _CAUTION_FILL, _WRAP
-        ws.merge_cells("A3:G3")
+        ws.merge_cells(f"A3:{COLS[-1]}3")
         ws.row_dimensions[3].height = 30
         ws["A4"], ws["A4"].font = FILL_NOTE, Font(italic=True, size=9)
         for col, w in WIDTHS.items():
@@ -87,7 +99,7 @@ class _Calc:
 
     def section(self, text: str, right: str | None = None) -> int:
         r = self.row
-        for col in "ABCDEFG":
+        for col in COLS:
             self.ws[f"{col}{r}"].fill = _SECTION_FILL
         self.ws[f"A{r}"], self.ws[f"A{r}"].font = text, _BOLD
         if right:
@@ -111,7 +123,8 @@ class _Calc:
         for name, value, unit, meaning, fmt in items:
             r = self.row
             ws[f"A{r}"], ws[f"B{r}"] = name, value
-            ws[f"B{r}"].number_format, ws[f"B{r}"].fill, ws[f"B{r}"].border = fmt, _INPUT_FILL, _BOX
+            ws[f"B{r}"].number_format, ws[f"B{r}"].fill, ws[f"B{r}"].border = \
+                _ENGINEERING.get(fmt, fmt), _INPUT_FILL, _BOX
             if unit_col:
                 ws[f"C{r}"], ws[f"D{r}"] = unit, meaning
             else:
@@ -127,7 +140,7 @@ class _Calc:
         r, ws = self.row, self.ws
         ws[f"A{r}"], ws[f"B{r}"] = label, content
         ws[f"A{r}"].alignment = ws[f"B{r}"].alignment = _WRAP
-        ws.merge_cells(f"B{r}:G{r}")
+        ws.merge_cells(f"B{r}:{COLS[-1]}{r}")
         ws.row_dimensions[r].height = height
         self.row += 1
         if what:
@@ -138,7 +151,12 @@ class _Calc:
               what: str | None = None) -> str:
         r, ws = self.row, self.ws
         ws[f"A{r}"], ws[f"B{r}"], ws[f"C{r}"] = label, formula, unit
-        ws[f"B{r}"].number_format = fmt
+        ws[f"B{r}"].number_format = _ENGINEERING.get(fmt, fmt)
+        ws[f"A{r}"].alignment = _WRAP
+        ws[f"B{r}"].alignment = ws[f"C{r}"].alignment = _TOP
+        lines = -(-len(label) // int(WIDTHS["A"] * 1.05))               # characters per line, roughly
+        if lines > 1:
+            ws.row_dimensions[r].height = lines * LINE
         self.row += 1
         if what:
             self.note(what, f"B{r}")
@@ -155,13 +173,28 @@ class _Calc:
         r = self.row if at is None else at
         rows, cols = room
         self.ws[f"{col}{r}"] = formula
+        for off in range(cols):                # header row: bold, over its column's alignment
+            cell = self.ws.cell(row=r, column=ord(col) - 64 + off)
+            cell.font = _BOLD
+            parts = (style or {}).get(off, ())
+            parts = parts if isinstance(parts, tuple) else (parts,)
+            side = next((a.horizontal for a in parts if isinstance(a, Alignment) and a.horizontal), None)
+            if side is None and any(isinstance(a, str) and a != "General" for a in parts):
+                side = "right"                                       # a number column
+            cell.alignment = Alignment(wrap_text=cols > 4, vertical="top", horizontal=side)
         for off, fmt in (style or {}).items():
-            for rr in range(r + 1 if off == 0 else r, r + rows):
+            for rr in range(r + 1, r + rows):
                 cell = self.ws.cell(row=rr, column=ord(col) - 64 + off)
-                if isinstance(fmt, Alignment):
-                    cell.alignment = fmt
-                else:
-                    cell.number_format = fmt
+                for f in (fmt if isinstance(fmt, tuple) else (fmt,)):
+                    if isinstance(f, Alignment):
+                        cell.alignment = f
+                    else:
+                        cell.number_format = f
+        if cols > 4 and self.ws.row_dimensions[r].height is None:   # a table (not a figures block)
+            self.ws.row_dimensions[r].height = HEAD_LINES * LINE
+            if any(isinstance(v, Alignment) and v.wrap_text for v in (style or {}).values()):
+                for rr in range(r + 1, r + 1 + BODY_TALL_ROWS):
+                    self.ws.row_dimensions[rr].height = BODY_LINES * LINE
         if at is None:
             self.row += rows
         end = chr(ord(col) + cols - 1)
@@ -177,14 +210,34 @@ class _Calc:
             self.figure(label, formula, unit, fmt, **check)
         self.spill("figures block (SF_FIGURES)", block, col="E", at=top, room=BLOCK_ROOM, style=BLOCK_STYLE)
         self.row = max(self.row, top + BLOCK_ROOM[0]) + 1
+        self.ws.row_breaks.append(Break(id=self.row - 1))          # the tables start a new page
 
 
 def _fit_page(ws, landscape: bool = False) -> None:
+    """A4, one page wide.  Calculation: landscape, as many pages tall as it needs, print area
+    A:J.  Response: portrait, the header row repeated on every page (a 201-row table on ~5
+    pages, not squeezed onto one).  Chart: one page."""
     ws.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=True)
     ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 1
+    ws.page_setup.fitToHeight = 1 if ws.title == "Chart" else 0
+    if ws.title == "Calculation":
+        landscape = True
+        ws.print_area = f"A1:{COLS[-1]}{ws.max_row}"
+    if ws.title == "Response":
+        last = chr(64 + max(ws.max_column, 6))
+        ws.print_title_rows = f"{R_HEAD}:{R_HEAD}"
+        ws.print_area = f"A1:{last}{ws.max_row}"                            # room for the title
+        note = str(ws["A2"].value or "")
+        width = sum(ws.column_dimensions[c].width or 8.43 for c in "ABCDEFGHIJ"[:ord(last) - 64])
+        ws.merge_cells(f"A2:{last}2")                                        # the note wraps on the page
+        ws["A2"].alignment = _WRAP
+        ws.row_dimensions[2].height = LINE * max(1, -(-len(note) // int(width)))
     ws.page_setup.orientation = "landscape" if landscape else "portrait"
     ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.print_options.gridLines = False
+    ws.page_margins.left = ws.page_margins.right = 0.5
+    ws.page_margins.top = ws.page_margins.bottom = 0.6
+    ws.oddFooter.center.text = "&F, sheet &A"
 
 
 # ------------------------------------------------------------------ Response and Chart
@@ -198,7 +251,7 @@ def _response(wb: Workbook, title: str, note: str, start, step, columns) -> tupl
     for cell, label, value in ((R_START, "start time", start), (R_STEP, "time step", step)):
         r = cell[1:]
         ws[f"A{r}"], ws[cell], ws[f"C{r}"] = label, value, "s"
-        ws[cell].fill, ws[cell].border, ws[cell].number_format = _INPUT_FILL, _BOX, "0.000E+00"
+        ws[cell].fill, ws[cell].border, ws[cell].number_format = _INPUT_FILL, _BOX, ENG
     ws.column_dimensions["A"].width = 14
     ws[f"A{R_HEAD}"], ws[f"A{R_HEAD}"].font = "t [s]", _BOLD
     for i, (head, _f, _fmt) in enumerate(columns):
@@ -208,7 +261,7 @@ def _response(wb: Workbook, title: str, note: str, start, step, columns) -> tupl
     for k in range(N_ROWS):
         r = R_FIRST + k
         ws[f"A{r}"] = f"={_abs(R_START)}+{k}*{_abs(R_STEP)}"
-        ws[f"A{r}"].number_format = "0.000E+00"
+        ws[f"A{r}"].number_format = ENG
         for i, (_h, formula, fmt) in enumerate(columns):
             ws.cell(row=r, column=2 + i, value=formula.format(r=r, t=f"A{r}")).number_format = fmt
     ws.freeze_panes = f"A{R_FIRST}"

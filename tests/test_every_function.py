@@ -28,9 +28,9 @@ CASES = [
     ("D2", '=SF_PARTFRAC("(s+2)/((s+1)^2 (s^2+2s+5))")', lambda: cf.partfrac_table("(s+2)/((s+1)^2 (s^2+2s+5))")),
     ("D10", '=SF_POLES("(s+2)/(s^2+1.2s+4)")', lambda: cf.poles_table("(s+2)/(s^2+1.2s+4)")),
     ("D18", '=SF_FIGURES("4/(s^2+1.2s+4)")', lambda: cf.figures_block("4/(s^2+1.2s+4)")),
-    ("G18", '=SF_RESPONSE_TABLE("1/(s+1)", 0, 2, 5, "step")',
+    ("I18", '=SF_RESPONSE_TABLE("1/(s+1)", 0, 2, 5, "step")',
      lambda: cf.response_table("1/(s+1)", 0.0, 2.0, 5.0, "step")),
-    ("J18", '=SF_RESPONSE_TABLE("1/(s+1)", P10:P12)',
+    ("K18", '=SF_RESPONSE_TABLE("1/(s+1)", P10:P12)',
      lambda: cf.response_table("1/(s+1)", [[0.0], [0.5], [2.0]])),
     # frequency half
     ("B40", '=SF_GAIN_DB("4/(s^2+1.2s+4)", 1.5)', lambda: cf.gain_db("4/(s^2+1.2s+4)", 1.5)),

@@ -108,7 +108,7 @@ def test_values_match_engine(filled):
     assert np.max(np.abs(np.array(ys) - ref)) < 1e-6
     ws = wb["Design"]
     assert ws["B6"].value == pytest.approx(2.5)            # defined name 'gain' used as parameter
-    assert ws["E2"].value == "pole" and ws["F2"].value == "order"     # spilled header row
+    assert ws["E2"].value == "term in s" and ws["H2"].value == "pole"     # spilled header row
     assert ws["E12"].value == "kept text"
 
 
@@ -167,7 +167,7 @@ def test_refill_with_changed_input_clears_stale_spill(filled, tmp_path):
     report = fill_workbook(tmp_path / "two.xlsx", in_place=True, use_cache=False)
     assert report.cleared > 0 and Path(report.backup).exists() and first.spilled > report.spilled
     ws = openpyxl.load_workbook(tmp_path / "two.xlsx", data_only=True)["Design"]
-    assert ws["E3"].value == "-1" and ws["E4"].value is None and ws["E6"].value is None
+    assert ws["H3"].value == -1 and ws["E4"].value is None and ws["E6"].value is None
     assert ws["E12"].value == "kept text"
     assert edited.exists()
 

@@ -433,7 +433,10 @@ def parse_params(params: Mapping[str, object] | None) -> dict:
 
 
 def param_value(name: str, value):
-    """One parameter value as an exact SymPy number."""
+    """One parameter value as an exact SymPy number.
+
+    Text may be an SI-prefixed number (``'10k'``, ``'22n'``, ``'1.5meg'``: see ``sheetfuncs.units``)
+    or a constant expression (``'1/3'``, ``'2*pi'``)."""
     import sympy as sp
     if isinstance(value, bool) or value is None:
         raise ParameterError(f"parameter '{name}' has no numeric value", name)
@@ -450,6 +453,10 @@ def param_value(name: str, value):
             raise ParameterError(f"parameter '{name}' must be a number", name)
         return value
     if isinstance(value, str):
+        from ..units import prefixed_number          # '10k', '22n', '4.7u' (SI prefixes; values only)
+        prefixed = prefixed_number(value)
+        if prefixed is not None:
+            return sp.Rational(prefixed.numerator, prefixed.denominator)
         try:
             builder = _SympyBuilder({}, sp.Symbol("_novar"))
             expr = _Parser(value.strip(), "_novar", frozenset({"sqrt", "exp", "ln", "log"}),
@@ -457,7 +464,10 @@ def param_value(name: str, value):
         except ExpressionSyntaxError as exc:
             raise ParameterError(f"parameter '{name}': {exc.message}", name) from exc
         if expr.free_symbols:
-            raise ParameterError(f"parameter '{name}' value '{value}' is not a number", name)
+            hint = ""
+            if re.fullmatch(r"\s*[+-]?(\d+\.?\d*|\.\d+)\s*[A-Za-z\u00b5\u03bc\u03a9%/^ ]+\s*", value):
+                hint = f" (a unit goes in the label: '{name} [unit]'; values take SI prefixes only: 22n, 10k)"
+            raise ParameterError(f"parameter '{name}' value '{value}' is not a number{hint}", name)
         return expr
     try:
         return exact_number(repr(float(value)))

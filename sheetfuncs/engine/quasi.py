@@ -315,6 +315,10 @@ def param_fraction(name: str, value):
         except LiteralRangeError as exc:
             raise ParameterError(f"parameter '{name}': {exc.reason}", name) from exc
     if isinstance(value, str):
+        from ..units import prefixed_number          # '10k', '22n' (SI prefixes; values only)
+        prefixed = prefixed_number(value)
+        if prefixed is not None:
+            return Q(prefixed)
         try:
             q = _lift(_Parser(value.strip(), "_novar", frozenset(), QuasiBuilder({})).parse())
         except NotQuasi:

@@ -18,6 +18,8 @@ import csv
 import inspect
 import math
 import re
+import shutil
+import subprocess
 import zipfile
 from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
@@ -177,7 +179,7 @@ def test_sampled_tables_have_200_rows_one_plain_formula_each(built, info):
         assert ws[f"A{last + 1}"].value is None
 
 
-def test_chart_sheet_titles_and_one_page_setup(built):
+def test_chart_sheet_titles_and_page_setup(built):
     for p in built:
         wb = _load(p)
         charts = wb["Chart"]._charts
@@ -189,7 +191,29 @@ def test_chart_sheet_titles_and_one_page_setup(built):
         assert len(titles) >= 3 and sum("[" in t and "]" in t for t in titles) >= 2, titles
         for ws in wb.worksheets:
             assert ws.sheet_properties.pageSetUpPr.fitToPage is True, f"{p.name} {ws.title}"
-            assert ws.page_setup.fitToWidth == 1 and ws.page_setup.fitToHeight == 1
+            assert ws.page_setup.fitToWidth == 1 and int(ws.page_setup.paperSize) == int(ws.PAPERSIZE_A4)
+            assert "&A" in ws.oddFooter.center.text                  # the sheet name on every page
+        assert wb["Chart"].page_setup.fitToHeight == 1
+        calc, resp = wb["Calculation"], wb["Response"]
+        assert calc.page_setup.orientation == "landscape" and calc.page_setup.fitToHeight == 0
+        assert re.search(rf"!\$A\$1:\${templates.COLS[-1]}\$\d+$", calc.print_area)
+        assert resp.page_setup.fitToHeight == 0                        # 201 rows over several pages
+        assert resp.print_title_rows == f"${templates.R_HEAD}:${templates.R_HEAD}"
+
+
+def test_number_formats_are_fixed_or_engineering(built):
+    """No plain scientific notation for a figure: fixed decimals or engineering (exponent a
+    multiple of 3); scientific only for tiny deviations (self-check)."""
+    for p in built:
+        wb = _load(p)
+        ws = wb["Calculation"]
+        for row in ws.iter_rows():
+            for c in row:
+                fmt = c.number_format
+                if "E" in fmt and isinstance(c.value, str) and c.value.startswith("=SF_FIGURE"):
+                    assert fmt.startswith("##0."), f"{p.name} {c.coordinate}: {fmt}"
+        for r in range(templates.R_FIRST, templates.R_FIRST + 3):
+            assert wb["Response"][f"A{r}"].number_format == templates.ENG
 
 
 def test_cautions_near_the_top_and_names_excel_accepts(built):
@@ -206,7 +230,8 @@ def test_cautions_near_the_top_and_names_excel_accepts(built):
 
 
 def test_spilling_tables_have_empty_room(built):
-    room = {"SF_PARTFRAC": (12, 7), "SF_POLES": (12, 7), "SF_FIGURES": (9, 2), "SF_RESPONSE_TABLE": (12, 2)}
+    room = {"SF_PARTFRAC": (12, len(cellfuncs.PARTFRAC_HEADS)), "SF_POLES": (12, len(cellfuncs.POLES_HEADS)),
+            "SF_FIGURES": (10, 4), "SF_RESPONSE_TABLE": (12, 2)}
     seen = 0
     for p in built:
         wb = _load(p)
@@ -464,12 +489,41 @@ def test_key_figures_match_figures_and_textbook_values(shown, info):
     assert checked >= 30
 
 
-def test_pdf_has_one_page_per_sheet_and_a_drawn_chart(shown):
+def _page_text(pdf, page: int) -> str:
+    exe = shutil.which("pdftotext") or "pdftotext"
+    res = subprocess.run([exe, "-layout", "-f", str(page), "-l", str(page), str(pdf), "-"],
+                         capture_output=True, text=True, timeout=60)
+    assert res.returncode == 0, res.stderr
+    return res.stdout
+
+
+def test_pdf_pages_read_well(shown):
+    """Every page of every filled template, exported to PDF by LibreOffice and rendered to PNG:
+    not blank; the Calculation sheet on a few landscape pages, the chart on one page with a
+    drawn curve, the 201-row Response table over several pages with its header on each."""
     for name, d in shown.items():
-        assert lo.pdf_page_count(d["pdf"]) == 3, f"{name}: a sheet does not fit on one page"
-        out = d["pdf"].parent / "png"
-        calc = lo.pdf_page_png(d["pdf"], 1, out)
-        chart = lo.pdf_page_png(d["pdf"], 2, out)
-        assert not lo.png_is_blank(calc), f"{name}: Calculation page is blank"
-        ink = lo.png_ink(chart)
-        assert not lo.png_is_blank(chart) and ink["color_rows"] >= 20, f"{name}: chart page {ink}"
+        pdf = d["pdf"]
+        pages = lo.pdf_page_count(pdf)
+        out = pdf.parent / "png"
+        sheet_of = {}
+        for k in range(1, pages + 1):
+            text = _page_text(pdf, k)
+            sheet = next((s for s in SHEETS if f"sheet {s}" in text), None)
+            assert sheet, f"{name} page {k}: no sheet name in its footer"
+            sheet_of[k] = sheet
+            png = lo.pdf_page_png(pdf, k, out)
+            assert not lo.png_is_blank(png), f"{name} page {k} ({sheet}) is blank"
+            if sheet == "Chart":
+                ink = lo.png_ink(png)
+                assert ink["color_rows"] >= 20, f"{name}: chart page {ink}"
+            if sheet == "Response":
+                assert "t [s]" in text, f"{name} page {k}: the Response header is not repeated"
+                rows = [ln for ln in text.splitlines() if re.match(r"\s*-?\d", ln)]
+                assert 10 <= len(rows) <= 70, f"{name} page {k}: {len(rows)} table rows on one page"
+        count = {s: list(sheet_of.values()).count(s) for s in SHEETS}
+        assert 1 <= count["Calculation"] <= 3 and count["Chart"] == 1, (name, count)
+        assert count["Response"] >= 3, f"{name}: 201 rows squeezed onto {count['Response']} page(s)"
+        assert list(sheet_of.values()) == sorted(sheet_of.values(), key=SHEETS.index)
+    rlc = shown["rlc_step_response"]["pdf"]
+    first = _page_text(rlc, 1)
+    assert re.search(r"overshoot\s+3\d\.\d\d\s*%", first), "overshoot not shown as a fixed-point percentage"
