@@ -682,7 +682,8 @@ def frequency_figures(m: FrequencyModel) -> FrequencyFigures:
         if cands:
             v, w = max(cands)
             ref = max(dc, hf if hf is not None and math.isfinite(hf) else 0.0)
-            if v > ref * (1 + 1e-9) and (hf is None or math.isfinite(hf)):
+            inside = m.rational or w < _scale_of(m)[1] / 100      # not the end of a scan
+            if math.isfinite(v) and inside and v > ref * (1 + 1e-9) and (hf is None or math.isfinite(hf)):
                 peak, peak_w = v, w
     edges = None
     if dc == 0.0 and peak is not None and hf == 0.0:

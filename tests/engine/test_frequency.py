@@ -121,3 +121,14 @@ def test_notch_bandwidth_on_the_falling_edge():
     # notch (s^2+1)/(s^2+0.5s+1): |F|^2 = (1-w^2)^2/((1-w^2)^2+0.25 w^2) = 1/2 at 1 - w^2 = 0.5 w  (elementary)
     f = frequency.frequency_response("(s^2+1)/(s^2+0.5s+1)", [1.0]).figures
     assert f.bandwidth == pytest.approx((-0.5 + math.sqrt(0.25 + 4)) / 2, rel=1e-12)
+
+
+def test_non_rational_peak_against_a_dense_grid():
+    # reference: numpy on 2e6 points of exp(-sqrt(jw))/(1 - w^2 + 0.2 jw) (direct evaluation of the formula)
+    f = frequency.frequency_response("exp(-sqrt(s))/(s^2+0.2s+1)", [1.0]).figures
+    w = np.linspace(0.5, 1.5, 2_000_001)
+    mag = np.abs(np.exp(-np.sqrt(1j * w)) / (1 - w ** 2 + 0.2j * w))
+    i = int(np.argmax(mag))
+    assert f.peak == pytest.approx(mag[i], rel=1e-10)
+    assert f.peak_frequency == pytest.approx(w[i], abs=2e-6)
+    assert frequency.frequency_response("sin(s)", [1.0]).figures.peak is None     # grows without bound
