@@ -124,6 +124,31 @@ def _ratio(num: np.ndarray, den: np.ndarray, u: np.ndarray) -> np.ndarray:
     return out
 
 
+class _Shared:
+    """Evaluation of several numerators over one denominator at the same
+    frequencies: the split at |u| = 1 and the denominator values made once."""
+
+    def __init__(self, den: np.ndarray, u: np.ndarray):
+        self.u = u
+        self.lo = np.abs(u) <= 1.0
+        self.hi = ~self.lo
+        self.ju_lo = 1j * u[self.lo]
+        self.r_hi = 1.0 / (1j * u[self.hi])
+        self.ju_hi = 1j * u[self.hi]
+        self.nd = len(den) - 1
+        with np.errstate(all="ignore"):
+            self.d_lo = np.polyval(den, self.ju_lo)
+            self.d_hi = np.polyval(den[::-1], self.r_hi)
+
+    def ratio(self, num: np.ndarray) -> np.ndarray:
+        out = np.empty(self.u.shape, dtype=complex)
+        with np.errstate(all="ignore"):
+            out[self.lo] = np.polyval(num, self.ju_lo) / self.d_lo
+            d = (len(num) - 1) - self.nd
+            out[self.hi] = np.polyval(num[::-1], self.r_hi) / self.d_hi * self.ju_hi ** d
+        return out
+
+
 def _branch_angle(w: np.ndarray, roots: np.ndarray) -> np.ndarray:
     """Sum over roots r = a + jb of the continuous angle of (jw - r): for a < 0
     atan((w-b)/(-a)); for a > 0  pi - atan((w-b)/a); on the axis +-pi/2."""
@@ -185,10 +210,10 @@ class FrequencyModel:
         if not self.rational:
             with np.errstate(all="ignore"):
                 return np.asarray(self.func(1j * w), dtype=complex) * np.ones_like(w)
-        u = w / self.w0
+        sh = _Shared(self.den, w / self.w0)
         out = np.zeros(w.shape, dtype=complex)
         for T, num in zip(self.delays, self.nums):
-            part = _ratio(num, self.den, u)
+            part = sh.ratio(num)
             out += part * np.exp(-1j * w * T) if T else part
         return out
 
@@ -230,13 +255,13 @@ class FrequencyModel:
         if not self.rational:
             with np.errstate(all="ignore"):
                 return np.asarray(self.dfunc(1j * w), dtype=complex) * np.ones_like(w)
-        u = w / self.w0
+        sh = _Shared(self.den, w / self.w0)
         dden = np.polyder(self.den) / self.w0 if len(self.den) > 1 else np.zeros(1)
-        rd = _ratio(dden, self.den, u) if len(self.den) > 1 else np.zeros(w.shape, complex)
+        rd = sh.ratio(dden) if len(self.den) > 1 else np.zeros(w.shape, complex)
         out = np.zeros(w.shape, dtype=complex)
         for T, num in zip(self.delays, self.nums):
-            f = _ratio(num, self.den, u)
-            dn = _ratio(np.polyder(num) / self.w0, self.den, u) if len(num) > 1 else 0.0
+            f = sh.ratio(num)
+            dn = sh.ratio(np.polyder(num) / self.w0) if len(num) > 1 else 0.0
             part = dn - f * rd - T * f
             out += part * np.exp(-1j * w * T) if T else part
         return out
@@ -682,7 +707,8 @@ def frequency_figures(m: FrequencyModel) -> FrequencyFigures:
         if cands:
             v, w = max(cands)
             ref = max(dc, hf if hf is not None and math.isfinite(hf) else 0.0)
-            if v > ref * (1 + 1e-9) and (hf is None or math.isfinite(hf)):
+            inside = m.rational or w < _scale_of(m)[1] / 100      # not the end of a scan
+            if math.isfinite(v) and inside and v > ref * (1 + 1e-9) and (hf is None or math.isfinite(hf)):
                 peak, peak_w = v, w
     edges = None
     if dc == 0.0 and peak is not None and hf == 0.0:

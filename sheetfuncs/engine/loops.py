@@ -400,7 +400,9 @@ def expression_text(e: sp.Expr) -> str:
     back = {v: k for k, v in subs.items()}
     r = sp.cancel(sp.together(e.xreplace(subs)))
     num, den = sp.fraction(r)
-    num, den = sp.expand(num).xreplace(back), sp.expand(den).xreplace(back)
+    zs = list(back)
+    num = sp.collect(sp.expand(num), zs).xreplace(back) if zs else sp.expand(num)
+    den = sp.collect(sp.expand(den), zs).xreplace(back) if zs else sp.expand(den)
     if den == 1:
         return sp.sstr(num)
 

@@ -4,9 +4,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import subprocess
-import sys
 
 import numpy as np
 import pytest
@@ -15,14 +12,16 @@ from scipy import signal
 from sheetfuncs.engine import frequency
 from sheetfuncs.errors import ParameterError, SamplingError, SheetfuncsError
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-
-
 def _cli(*args):
-    env = dict(os.environ, PYTHONPATH=ROOT)
-    p = subprocess.run([sys.executable, "-m", "sheetfuncs.cli", *args], capture_output=True, text=True, env=env,
-                       timeout=120)
-    return p.returncode, p.stdout, p.stderr
+    """(exit status, stdout, stderr) of the sheetfuncs command, run in this process."""
+    import contextlib
+    import io
+
+    from sheetfuncs import cli
+    out, err = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+        rc = cli.main(list(args))
+    return rc, out.getvalue(), err.getvalue()
 
 
 def test_contract_json_of_the_frequency_command():
@@ -121,3 +120,14 @@ def test_notch_bandwidth_on_the_falling_edge():
     # notch (s^2+1)/(s^2+0.5s+1): |F|^2 = (1-w^2)^2/((1-w^2)^2+0.25 w^2) = 1/2 at 1 - w^2 = 0.5 w  (elementary)
     f = frequency.frequency_response("(s^2+1)/(s^2+0.5s+1)", [1.0]).figures
     assert f.bandwidth == pytest.approx((-0.5 + math.sqrt(0.25 + 4)) / 2, rel=1e-12)
+
+
+def test_non_rational_peak_against_a_dense_grid():
+    # reference: numpy on 2e6 points of exp(-sqrt(jw))/(1 - w^2 + 0.2 jw) (direct evaluation of the formula)
+    f = frequency.frequency_response("exp(-sqrt(s))/(s^2+0.2s+1)", [1.0]).figures
+    w = np.linspace(0.5, 1.5, 2_000_001)
+    mag = np.abs(np.exp(-np.sqrt(1j * w)) / (1 - w ** 2 + 0.2j * w))
+    i = int(np.argmax(mag))
+    assert f.peak == pytest.approx(mag[i], rel=1e-10)
+    assert f.peak_frequency == pytest.approx(w[i], abs=2e-6)
+    assert frequency.frequency_response("sin(s)", [1.0]).figures.peak is None     # grows without bound

@@ -4,9 +4,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import subprocess
-import sys
 
 import numpy as np
 import pytest
@@ -15,14 +12,16 @@ import sympy as sp
 from sheetfuncs.engine import frequency, loops
 from sheetfuncs.engine.parse import parse
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-
-
 def _cli(*args):
-    env = dict(os.environ, PYTHONPATH=ROOT)
-    p = subprocess.run([sys.executable, "-m", "sheetfuncs.cli", *args], capture_output=True, text=True, env=env,
-                       timeout=120)
-    return p.returncode, p.stdout, p.stderr
+    """(exit status, stdout, stderr) of the sheetfuncs command, run in this process."""
+    import contextlib
+    import io
+
+    from sheetfuncs import cli
+    out, err = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+        rc = cli.main(list(args))
+    return rc, out.getvalue(), err.getvalue()
 
 
 def test_margins_contract_json():

@@ -37,10 +37,10 @@ def test_released_mass_textbook_figures():
 def test_released_mass_decay_time_against_scipy():
     # reference: scipy.signal.impulse of the same X(s) on a dense grid; last time |x| >= 5 % of x0
     f = shape.response_shape(RELEASE, decay=5.0)
-    t = np.linspace(0, 1.0, 2_000_001)
+    t = np.linspace(0, 1.0, 200_001)
     _, x = signal.impulse(([MASS * X0, DAMP * X0], [MASS, DAMP, STIFF]), T=t)
     last = t[np.nonzero(np.abs(x) >= 0.05 * X0)[0][-1]]
-    assert f.decay_time == pytest.approx(last, abs=2e-6)
+    assert f.decay_time == pytest.approx(last, abs=1e-5)      # grid step 5e-6
 
 
 def test_step_peak_textbook():
@@ -56,9 +56,9 @@ def test_step_peak_textbook():
 def test_non_minimum_phase_undershoot_against_scipy():
     # reference: scipy.signal.step of (1-s)/(s+1)^2 on a dense grid: the initial dip below zero
     f = shape.response_shape("(1-s)/(s+1)^2", input="step")
-    t = np.linspace(0, 10, 1_000_001)
+    t = np.linspace(0, 10, 100_001)
     _, y = signal.step(([-1.0, 1.0], [1.0, 2.0, 1.0]), T=t)
-    assert f.undershoot == pytest.approx(-float(np.min(y)), rel=1e-9)
+    assert f.undershoot == pytest.approx(-float(np.min(y)), rel=1e-7)
     assert f.undershoot_percent == pytest.approx(100 * f.undershoot, rel=1e-12)
     assert f.extremum_time is None and f.extremum_value == pytest.approx(1.0)
     assert f.decrement is None                       # dominant mode real (double pole at -1)

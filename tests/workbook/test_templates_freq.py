@@ -28,6 +28,8 @@ def test_committed_files_are_the_generator_output(built):
     for p in built:
         assert (folder / p.name).read_bytes() == p.read_bytes(), \
             f"workbooks/{p.name} is stale: run python -m sheetfuncs.templates_freq"
+    assert (folder / "README_frequency.md").read_text(encoding="utf-8") == \
+        templates_freq.readme(templates_freq.describe())
 
 
 def test_only_known_functions_and_a_log_axis(built):
