@@ -255,10 +255,11 @@ def _run(args):
         if args.check and res.f_t is not None:
             d["check"] = api.self_check(res).to_dict()
         if args.excel:
-            d["excel"] = api.excel_formula(res, args.excel, digits=args.digits or 15)
+            d["excel"] = api.excel_formula(res, args.excel)          # always full precision
         if args.latex:
             d["latex"] = api.latex(res, digits=args.digits)
-        return d if args.json else report.inversion(res, d, digits=args.digits or 6)
+        return d if args.json else report.inversion(res, dict(d, typed=args.expr),
+                                                     digits=args.digits or 6)
     if args.command == "sample":
         times = _floats(args.times, "--times") if args.times else None
         if times is None and None in (args.start, args.stop, args.n):

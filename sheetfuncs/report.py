@@ -183,10 +183,24 @@ def fraction_rows(dec, scale=1) -> list[FractionRow]:
     return rows
 
 
-def inversion(res, d, digits=6) -> str:
+def _s_text(F) -> str:
+    """F(s) as human text: ^ for powers (the JSON keeps SymPy syntax)."""
     from .printing import to_display
-    out = [f"F(s)   = {sp.sstr(res.expr)}",
-           f"f(t)   = {to_display(res.f_t, digits=digits) if res.f_t is not None else '(numerical only)'}"
+    try:
+        return to_display(F, digits=17).replace("**", "^")
+    except Exception:            # noqa: BLE001 - an exotic node: SymPy's own text
+        return sp.sstr(F).replace("**", "^")
+
+
+def inversion(res, d, digits=6) -> str:
+    from .printing import display_result, to_display
+    closed = res.f_t is not None
+    shown = display_result(res, digits=digits) if closed else (
+        "(no finite closed form: a loop around a dead time; exact by the dead-time series, "
+        "see 'sheetfuncs sample')" if getattr(res, "series", None) is not None else "(numerical only)")
+    typed = " ".join(str(d.get("typed", "")).split())
+    out = [f"F(s)   = {typed or _s_text(res.expr)}",
+           f"f(t)   = {shown}"
            + ("   for t >= 0" if res.f_t is not None else ""),
            f"method : {res.method}"]
     for k, piece in enumerate(res.pieces or ()):
@@ -276,11 +290,11 @@ def figures(f, digits=6) -> str:
 
 
 def ode(sol, digits=6) -> str:
-    from .printing import to_display
+    from .printing import display_result
 
     def show(r):
-        return to_display(r.f_t, digits=digits) if r.f_t is not None else "(numerical only)"
-    return "\n".join([f"Y(s)        = {sp.sstr(sol.Y_s)}",
+        return display_result(r, digits=digits) if r.f_t is not None else "(numerical only)"
+    return "\n".join([f"Y(s)        = {_s_text(sol.Y_s)}",
                       f"y(t)        = {show(sol.y)}   for t >= 0",
                       f"free part   = {show(sol.free)}   (from the initial conditions)",
                       f"forced part = {show(sol.forced)}   (from the input)"])

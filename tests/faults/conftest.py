@@ -29,7 +29,7 @@ def build_book(path: Path) -> Path:
     ws["A4"], ws["B4"] = "twice", "=B3*2"
     ws["A5"], ws["B5"] = "note", 12.5
     ws["D1"] = "=SF_POLES(B1)"
-    ws["K1"] = "kept text"
+    ws["T1"] = "kept text"                  # right of the 10-column poles table
     wb.create_sheet("Other")["A1"] = "untouched"
     wb.save(path)
     return path
