@@ -180,7 +180,7 @@ class Series:
         ev = self._cache.get(key)
         if ev is None:
             from .evaluate import Evaluator
-            ev = self._cache[key] = Evaluator(windows(self.pieces_upto(horizon)))
+            ev = self._cache[key] = Evaluator(windows(self.pieces_upto(horizon), horizon))
         return ev
 
     # stability ---------------------------------------------------------------------------
@@ -262,7 +262,7 @@ def rhp_root_count(D0, others) -> int | None:
 WINDOW_DPS = 50
 
 
-def windows(pieces) -> list:
+def windows(pieces, horizon: float | None = None) -> list:
     """The pieces summed and re-expanded about the start of each window between
     consecutive delays: on [t0, t1) the response is one modal sum in t - t0, whose
     coefficients are computed once in extended precision (where the large
@@ -301,8 +301,61 @@ def windows(pieces) -> list:
                                           tuple(c.imag for c in cs)))
                 else:
                     reals.append(RealMode(pole, tuple(cs)))
-            out.append(Piece(t0, Modal((), tuple(reals), tuple(pairs), (), False), 1, until))
+            end = float(until) if until is not None else max(float(horizon or 0), float(t0) + 1.0)
+            series = _window_series(state, float(t0), end)
+            out.append(Piece(t0, Modal((), tuple(reals), tuple(pairs), (), False), 1, until, series))
     return out
+
+
+#: most terms of a window's power series
+MAX_SERIES_TERMS = 400
+
+
+def _window_series(state, t0: float, t1: float):
+    """The window's sum as a power series in u = (t - c)/h on [t0, t1] (c the midpoint, h the
+    half width), coefficients at WINDOW_DPS digits rounded to doubles: on a window the response
+    is smooth and of moderate size, so its series has little cancellation where the modal sum
+    (large polynomial and exponential parts of opposite sign) has much.  None when the series
+    does not converge within MAX_SERIES_TERMS terms."""
+    import mpmath
+    import numpy as np
+    c = (t0 + t1) / 2
+    h = (t1 - t0) / 2
+    if h <= 0:
+        return None
+    with mpmath.workdps(WINDOW_DPS):
+        mc, mh = mpmath.mpf(c - t0), mpmath.mpf(h)
+        # per mode: coefficients of e^{p x} sum_j C_j x^j / j! about the centre (x = t - c)
+        shifted = [(is_pair, pole, _shift(pole, cs, mc)) for is_pair, pole, cs in state.values()]
+        degree = max((len(cs) for *_, cs in shifted), default=0)
+        big = max((abs(pole) for _, pole, _ in shifted), default=0)
+        need = int(min(MAX_SERIES_TERMS, degree + 40 + 3 * float(big * mh)))
+        coeffs = [mpmath.mpf(0)] * need
+        for is_pair, pole, cs in shifted:
+            # e^{p h u} * sum_j C_j (h u)^j / j!  as a power series in u: a convolution
+            ph = pole * mh
+            e = [mpmath.mpf(1)]
+            for k in range(1, need):
+                e.append(e[-1] * ph / k)
+            cc = []
+            f = mpmath.mpf(1)
+            for j, cj in enumerate(cs):
+                if j:
+                    f = f * mh / j
+                cc.append(cj * f)
+            for n in range(need):
+                acc = 0
+                for j in range(min(n, len(cc) - 1) + 1):
+                    acc += cc[j] * e[n - j]
+                coeffs[n] += 2 * mpmath.re(acc) if is_pair else mpmath.re(acc)
+        scale = max((abs(x) for x in coeffs), default=mpmath.mpf(0))
+        if scale == 0:
+            return None
+        tail = max(abs(x) for x in coeffs[-5:])
+        if tail > scale * mpmath.mpf(10) ** -18:
+            return None
+        b = np.array([float(x) for x in reversed(coeffs)])
+    return (c, h, b, np.abs(b))
 
 
 def _accumulate(state, key, is_pair, pole, cs):

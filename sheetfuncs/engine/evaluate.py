@@ -74,17 +74,27 @@ class Evaluator:
         pairs = [(to_float(m.alpha), to_float(m.omega), [to_float(x) for x in m.xs],
                   [to_float(y) for y in m.ys]) for m in piece.modal.pairs]
         until = math.inf if piece.until is None else float(piece.until)
-        return float(piece.delay), until, piece.sign, reals, pairs
+        if piece.taylor is not None:
+            return float(piece.delay), until, piece.sign, reals, pairs, piece.taylor
+        return float(piece.delay), until, piece.sign, reals, pairs, None
 
     # fast pass -------------------------------------------------------------
     def _float(self, t: np.ndarray):
         y = np.zeros_like(t)
         mag = np.zeros_like(t)
         with np.errstate(all="ignore"):
-            for index, (delay, until, sign, reals, pairs) in enumerate(self._compiled):
+            for index, (delay, until, sign, reals, pairs, series) in enumerate(self._compiled):
                 m = (t >= delay) & (t < until)
                 if not m.any():
                     continue
+                if series is not None:
+                    c, h, b, babs = series
+                    u = (t[m] - c) / h
+                    ok = np.abs(u) <= 1.0 + 1e-12
+                    if ok.all():
+                        y[m] += sign * np.polyval(b, u)
+                        mag[m] += np.polyval(babs, np.abs(u))
+                        continue
                 tt = t[m] - delay
                 logt = np.log(tt) if any(len(c) > 1 for _, c in reals) or \
                     any(len(x) > 1 for _, _, x, _ in pairs) else None

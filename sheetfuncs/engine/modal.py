@@ -95,6 +95,9 @@ class Piece:
     modal: Modal
     sign: int = 1
     until: float | None = None   # the piece applies for delay <= t < until (None: for ever)
+    #: optional power series of the piece about a centre: (centre, half width, coefficients of
+    #: u^k highest first, their magnitudes) with u = (t - centre)/half in [-1, 1]
+    taylor: tuple | None = None
 
 
 def _groups(P1: tuple, Q: tuple, f: tuple, m: int) -> list[tuple[int, tuple]]:

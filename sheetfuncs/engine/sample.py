@@ -74,7 +74,14 @@ def input_quasi(kind, params: Mapping | None = None):
 
 
 def response_result(expr, params: Mapping | None = None, input="impulse"):
-    """The inverted response Y(s) = F(s) U(s): fast core first, the general route otherwise."""
+    """The inverted response Y(s) = F(s) U(s): fast core first, the general route otherwise
+    (memoised for text inputs: a result keeps its compiled evaluators and series windows)."""
+    if isinstance(expr, str) and (input is None or isinstance(input, str)):
+        return _response_cached(expr, None if params is None else dict(params), input)
+    return _response_uncached(expr, params, input)
+
+
+def _response_uncached(expr, params, input):
     from .fast import invert_quasi, quasi_of
     with limits.deadline(None):
         qF = quasi_of(expr, params)
@@ -83,6 +90,18 @@ def response_result(expr, params: Mapping | None = None, input="impulse"):
             return invert_quasi(qF * qU)
         from .invert import invert_expr
         return invert_expr(response_expr(expr, params, input))
+
+
+def _response_memo():
+    from . import cache
+
+    @cache.memo
+    def cached(expr, params, input):
+        return _response_uncached(expr, params, input)
+    return cached
+
+
+_response_cached = _response_memo()
 
 
 def input_transform(kind, params: Mapping | None = None):
