@@ -186,6 +186,15 @@ def build_loop() -> tuple:
     c.spill("loop figures block (SF_LOOP_FIGURES)", f"=SF_LOOP_FIGURES({L})", col="E", at=top,
             room=(10, 2), style=GENERAL)
     c.row = max(c.row, top + 10) + 1
+    c.section("Closed-loop setpoint step of T (exact with the dead time: series in the delay)")
+    for label, key, unit, fmt in [("final value", "final value", "degC", "0.0000"),
+                                  ("overshoot", "overshoot", "%", "0.00"),
+                                  ("peak time", "peak time", "s", "0.00"),
+                                  ("rise time (10% to 90%)", "rise time", "s", "0.00"),
+                                  ("settling time (2% band)", "settling time", "s", "0.0")]:
+        c.figure(f"closed-loop {label}", f'=SF_FIGURE({T},"{key}")', unit, fmt, expr=T.replace("$", ""),
+                 key=key)
+    c.row += 1
     _tidy(c)
     _fit_page(c.ws)
     # Response sheet: closed-loop step

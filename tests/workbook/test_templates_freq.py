@@ -93,3 +93,12 @@ def test_filled_in_libreoffice(built, tmp_path):
     assert float(_find(lc, "gain margin")[1]) == pytest.approx(m.gain_margin_db, abs=6e-3)
     assert float(_find(lc, "closed loop stable (1 yes, 0 no)")[1]) == 1
     assert any("cancels a plant pole" in str(v) for row in lc for v in row)
+    # closed-loop step with the dead time, against the engine on the same closed loop
+    # (the engine's dead-time series is itself checked against solve_ivp in tests/reference)
+    import sheetfuncs as sf
+    step = sf.figures(a.closed)
+    assert step.stable is True
+    assert float(_find(lc, "closed-loop overshoot")[1]) == pytest.approx(step.overshoot_percent, abs=6e-3)
+    assert float(_find(lc, "closed-loop settling time (2% band)")[1]) == pytest.approx(step.settling_time,
+                                                                                      abs=0.06)
+    assert float(_find(lc, "closed-loop final value")[1]) == pytest.approx(1.0, abs=1e-4)
