@@ -22,13 +22,18 @@ import re
 from typing import Callable
 
 import numpy as np
-import sympy as sp
 
 from . import api, units
+from ._lazy import sympy as sp
 from .engine import cache
 from .engine.parse import CONSTANTS, TIME_FUNCTIONS
-from .engine.results import pair
 from . import report
+
+
+def pair(x):
+    """A number as [re, im] (the general route's converter, imported on first use)."""
+    from .engine.results import pair as convert
+    return convert(x)
 from .errors import ParameterError, SamplingError, SheetfuncsError, UnsupportedExpressionError
 
 PREFIX = "SF_"

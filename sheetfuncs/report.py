@@ -4,9 +4,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-import sympy as sp
+from ._lazy import sympy as sp
 
-from .engine.results import pair
+
+def pair(x):
+    """A number as [re, im] (the general route's converter, imported on first use)."""
+    from .engine.results import pair as convert
+    return convert(x)
 
 
 LN50 = math.log(50.0)          # a simple mode's envelope e^(sigma t) falls to 2 % after tau ln 50
