@@ -40,9 +40,11 @@ def _figures_cached(expr, params, input, settle, rise):
     return _figures(expr, params, input=input, settle=settle, rise=rise)
 
 
-def figures(expr, params: Mapping | None = None, *, input="step", settle: float = 0.02,
-            rise: tuple = (0.1, 0.9)):
-    """Response figures for ``input`` (impulse, step, ramp or U(s))."""
+def figures(expr, params: Mapping | None = None, *, input="step", band: float = 0.02,
+            rise: tuple = (0.1, 0.9), settle: float | None = None):
+    """Response figures for ``input`` (impulse, step, ramp or U(s)); ``band`` is the settling
+    band (a fraction, as ``--band`` and the cells' ``band``; ``settle`` is its former name)."""
+    settle = band if settle is None else settle
     if isinstance(expr, str) and isinstance(input, str):
         return _figures_cached(expr, None if params is None else dict(params), input, float(settle),
                                tuple(rise))

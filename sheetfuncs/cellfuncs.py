@@ -418,7 +418,7 @@ _WHICH = re.compile(r"\s*([^\[\]]*?)\s*(?:\[([^\[\]]*)\])?\s*")
 
 def _figures(expr, input, params, band):
     return api.figures(_expr(expr), params_of(params), input=_text(input, "step"),
-                       settle=_number(band, "settling band", 0.02))
+                       band=_number(band, "settling band", 0.02))
 
 
 def _missing_reason(f, attr) -> str:

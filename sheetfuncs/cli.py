@@ -272,7 +272,7 @@ def _run(args):
         rise = _floats(args.rise, "--rise")
         if len(rise) != 2:
             raise _UsageError("--rise takes two levels, e.g. 0.1,0.9")
-        res = api.figures(args.expr, params, input=args.input, settle=args.band, rise=tuple(rise))
+        res = api.figures(args.expr, params, input=args.input, band=args.band, rise=tuple(rise))
         return res.to_dict() if args.json else report.figures(res, digits=args.digits or 6)
     if args.command == "ode":
         res = api.solve_ode(_items(args.coeffs), _items(args.initial), args.input, params,

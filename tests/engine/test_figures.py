@@ -40,7 +40,7 @@ def test_dead_time_adds_to_times():
 
 
 def test_settling_band_option():
-    f = sf.figures("1/(s+1)", settle=0.05)
+    f = sf.figures("1/(s+1)", band=0.05)
     assert f.settling_time == pytest.approx(math.log(20), rel=1e-9)
 
 
