@@ -14,6 +14,7 @@ The input is never overwritten unless ``in_place`` (then a backup is kept).
 """
 from __future__ import annotations
 
+import errno
 import json
 import os
 import re
@@ -455,7 +456,14 @@ def _atomic_copy(src: Path, dst: Path, st: os.stat_result) -> None:
             os.fsync(fo.fileno())
         shutil.copystat(src, tmp)
         _restore_owner(Path(tmp), st)
-        os.link(tmp, dst)                         # fails if dst appeared meanwhile: kept
+        try:
+            os.link(tmp, dst)                     # fails if dst appeared meanwhile: kept
+        except FileExistsError:
+            raise
+        except OSError as e:                      # no hard links here (FAT, some network shares)
+            if e.errno not in _NO_LINKS or dst.exists() or dst.is_symlink():
+                raise
+            os.replace(tmp, dst)
     except FileExistsError:
         pass
     except OSError as e:
@@ -463,6 +471,10 @@ def _atomic_copy(src: Path, dst: Path, st: os.stat_result) -> None:
                             "the workbook was not changed", file=str(src)) from None
     finally:
         _unlink(tmp)
+
+
+_NO_LINKS = {getattr(errno, n) for n in ("EPERM", "ENOTSUP", "EOPNOTSUPP", "ENOSYS", "EMLINK", "EXDEV")
+             if hasattr(errno, n)}
 
 
 def _restore_owner(path: Path, st: os.stat_result) -> None:
