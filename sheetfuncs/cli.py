@@ -175,7 +175,7 @@ def _fill(args):
         print(json.dumps(out) if args.json else out)
         why = []
         if bad_cells:
-            why.append(f"{bad_cells} cell{'s' if bad_cells != 1 else ''} hold errors")
+            why.append(f"{bad_cells} cell{'s hold' if bad_cells != 1 else ' holds'} errors")
         if failures:
             why.append(f"{len(failures)} of {len(failures) + len(reports)} workbooks failed "
                        "(not written)")
