@@ -158,6 +158,9 @@ def _fill(args):
         for r in reports:
             lines.append(f"{r.output}: {r.cells} cells ({r.errors} with errors, {r.spilled} spilled, "
                          f"{r.cache_hits} from cache) in {r.seconds:.2f} s")
+            if r.backup:
+                lines.append(f"  backup: {r.backup}" + (" (kept from an earlier run: the first backup "
+                                                          "is never replaced)" if r.backup_kept else ""))
             lines += [f"  {c}: {e}" for c, e in r.error_cells]
             rest = r.error_names[ERRORS_IN_FULL:]
             if rest:

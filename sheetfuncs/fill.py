@@ -59,6 +59,8 @@ class FillReport:
     warnings: tuple = field(default=())         # cache and file notes (the fill went on)
     #: (sheet!ref, reason) of native formulas whose value fill did not compute or cache
     natives_not_computed: tuple = field(default=())
+    #: in place: True when ``backup`` is an earlier run's backup, kept (never replaced)
+    backup_kept: bool = False
 
     @property
     def status(self) -> int:
@@ -72,7 +74,8 @@ class FillReport:
                 "backup": self.backup,
                 "error_cells": [{"cell": c, "error": e} for c, e in self.error_cells],
                 "error_names": list(self.error_names), "warnings": list(self.warnings),
-                "natives_not_computed": [{"cell": c, "why": w} for c, w in self.natives_not_computed]}
+                "natives_not_computed": [{"cell": c, "why": w} for c, w in self.natives_not_computed],
+                "backup_kept": self.backup_kept}
 
 
 # ------------------------------------------------------------------ caching
@@ -396,16 +399,21 @@ def _fill_in_place(src: Path, functions, store, notes, t0) -> FillReport:
         _remove_stale_temps(target)
         pkg = read_package(target)
         bak = target.with_name(target.name + ".bak")
+        kept = []
 
         def make_backup():
             if bak.is_symlink() or bak.exists():
-                return str(bak)                   # the first backup is kept, never replaced
+                kept.append(True)                 # the first backup is kept, never replaced
+                return str(bak)
             _atomic_copy(target, bak, st)
             return str(bak)
 
         report = _fill_package(pkg, src, target, functions, store, notes, t0, backup="in place",
                                before_write=make_backup)
         _restore_owner(target, st)
+    if kept:
+        from dataclasses import replace
+        report = replace(report, backup_kept=True)
     if st.st_nlink > 1:
         report = _with_note(report, f"{target} had {st.st_nlink} hard links; the filled file is a new "
                                     "file, the other links still show the old content")

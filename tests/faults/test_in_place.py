@@ -92,6 +92,7 @@ def test_the_first_backup_is_kept(tmp_path):
     filled_once = book.read_bytes()
     r = run_cli("fill", book, "--in-place", "--no-cache")
     assert r.returncode == 0, r.stderr
+    assert "kept from an earlier run" in r.stdout
     assert (tmp_path / "book.xlsx.bak").read_bytes() == original       # never replaced
     assert differences(filled_once, book) == [] and not temps(tmp_path)
 
