@@ -526,6 +526,8 @@ def _remove_stale_temps(target: Path) -> None:
 def _alive(pid: int) -> bool:
     if pid == os.getpid():
         return False
+    if os.name == "nt":             # os.kill(pid, 0) would terminate the process there
+        return True                 # so temp files are kept (never someone else's removed)
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
