@@ -449,7 +449,10 @@ class _inplace_lock:
                 os.close(fd)
                 continue
             if (st.st_dev, st.st_ino) == (now.st_dev, now.st_ino):
-                self.fd = fd
+                if fcntl is None:           # no flock (Windows): an open file could not be replaced
+                    os.close(fd)
+                else:
+                    self.fd = fd
                 return st
             os.close(fd)                      # replaced while we waited: lock the new file
         raise WorkbookError("the file keeps being replaced by another program", file=str(self.target))
