@@ -196,6 +196,9 @@ def _fill(args):
         for r in reports:
             lines.append(f"{r.output}: {r.cells} cells ({r.errors} with errors, {r.spilled} spilled, "
                          f"{r.cache_hits} from cache) in {r.seconds:.2f} s")
+            if r.backup:
+                lines.append(f"  backup: {r.backup}" + (" (kept from an earlier run: the first backup "
+                                                          "is never replaced)" if r.backup_kept else ""))
             lines += [f"  {c}: {e}" for c, e in r.error_cells]
             rest = r.error_names[ERRORS_IN_FULL:]
             if rest:
@@ -213,7 +216,7 @@ def _fill(args):
         print(json.dumps(out) if args.json else out)
         why = []
         if bad_cells:
-            why.append(f"{bad_cells} cell{'s' if bad_cells != 1 else ''} hold errors")
+            why.append(f"{bad_cells} cell{'s hold' if bad_cells != 1 else ' holds'} errors")
         if failures:
             why.append(f"{len(failures)} of {len(failures) + len(reports)} workbooks failed "
                        "(not written)")

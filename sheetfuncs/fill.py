@@ -14,6 +14,8 @@ The input is never overwritten unless ``in_place`` (then a backup is kept).
 """
 from __future__ import annotations
 
+import errno
+import gc
 import json
 import os
 import re
@@ -57,6 +59,8 @@ class FillReport:
     warnings: tuple = field(default=())         # cache and file notes (the fill went on)
     #: (sheet!ref, reason) of native formulas whose value fill did not compute or cache
     natives_not_computed: tuple = field(default=())
+    #: in place: True when ``backup`` is an earlier run's backup, kept (never replaced)
+    backup_kept: bool = False
 
     @property
     def status(self) -> int:
@@ -70,7 +74,8 @@ class FillReport:
                 "backup": self.backup,
                 "error_cells": [{"cell": c, "error": e} for c, e in self.error_cells],
                 "error_names": list(self.error_names), "warnings": list(self.warnings),
-                "natives_not_computed": [{"cell": c, "why": w} for c, w in self.natives_not_computed]}
+                "natives_not_computed": [{"cell": c, "why": w} for c, w in self.natives_not_computed],
+                "backup_kept": self.backup_kept}
 
 
 # ------------------------------------------------------------------ caching
@@ -364,11 +369,17 @@ def _fill_package(pkg, src: Path, dst_path: Path, functions, store, notes, t0, *
     writes += [CellWrite(sh, ref, v) for (sh, ref), v in natives.items()
                if (sh, ref) not in taken and _storable(v)]
     cleared = _clear_stale(pkg, book, writes, outcomes)
+    n_cells, hits = len(outcomes), funcs.hits
+    # the snapshot of every cell is not needed for writing: free it before the sheet XML is
+    # parsed, so the peak is the larger of the two phases, not their sum
+    del book, outcomes, natives, funcs, taken
+    gc.collect()
     if before_write is not None:
         backup = before_write()
-    write_results(pkg, dst_path, writes + cleared, names=spill_names, names_prefix=SPILL_NAME_PREFIX)
-    return FillReport(str(src), str(dst_path), len(outcomes), len(errors), spilled, len(cleared),
-                      funcs.hits, time.perf_counter() - t0, backup, tuple(errors[:ERRORS_IN_FULL]),
+    writes += cleared
+    write_results(pkg, dst_path, writes, names=spill_names, names_prefix=SPILL_NAME_PREFIX)
+    return FillReport(str(src), str(dst_path), n_cells, len(errors), spilled, len(cleared),
+                      hits, time.perf_counter() - t0, backup, tuple(errors[:ERRORS_IN_FULL]),
                       tuple(w for w, _ in errors), tuple(dict.fromkeys(notes)),
                       tuple((f"{_quote(sh)}{ref}", why) for (sh, ref), why in sorted(not_computed.items())))
 
@@ -388,16 +399,21 @@ def _fill_in_place(src: Path, functions, store, notes, t0) -> FillReport:
         _remove_stale_temps(target)
         pkg = read_package(target)
         bak = target.with_name(target.name + ".bak")
+        kept = []
 
         def make_backup():
             if bak.is_symlink() or bak.exists():
-                return str(bak)                   # the first backup is kept, never replaced
+                kept.append(True)                 # the first backup is kept, never replaced
+                return str(bak)
             _atomic_copy(target, bak, st)
             return str(bak)
 
         report = _fill_package(pkg, src, target, functions, store, notes, t0, backup="in place",
                                before_write=make_backup)
         _restore_owner(target, st)
+    if kept:
+        from dataclasses import replace
+        report = replace(report, backup_kept=True)
     if st.st_nlink > 1:
         report = _with_note(report, f"{target} had {st.st_nlink} hard links; the filled file is a new "
                                     "file, the other links still show the old content")
@@ -433,7 +449,10 @@ class _inplace_lock:
                 os.close(fd)
                 continue
             if (st.st_dev, st.st_ino) == (now.st_dev, now.st_ino):
-                self.fd = fd
+                if fcntl is None:           # no flock (Windows): an open file could not be replaced
+                    os.close(fd)
+                else:
+                    self.fd = fd
                 return st
             os.close(fd)                      # replaced while we waited: lock the new file
         raise WorkbookError("the file keeps being replaced by another program", file=str(self.target))
@@ -455,7 +474,14 @@ def _atomic_copy(src: Path, dst: Path, st: os.stat_result) -> None:
             os.fsync(fo.fileno())
         shutil.copystat(src, tmp)
         _restore_owner(Path(tmp), st)
-        os.link(tmp, dst)                         # fails if dst appeared meanwhile: kept
+        try:
+            os.link(tmp, dst)                     # fails if dst appeared meanwhile: kept
+        except FileExistsError:
+            raise
+        except OSError as e:                      # no hard links here (FAT, some network shares)
+            if e.errno not in _NO_LINKS or dst.exists() or dst.is_symlink():
+                raise
+            os.replace(tmp, dst)
     except FileExistsError:
         pass
     except OSError as e:
@@ -463,6 +489,10 @@ def _atomic_copy(src: Path, dst: Path, st: os.stat_result) -> None:
                             "the workbook was not changed", file=str(src)) from None
     finally:
         _unlink(tmp)
+
+
+_NO_LINKS = {getattr(errno, n) for n in ("EPERM", "ENOTSUP", "EOPNOTSUPP", "ENOSYS", "EMLINK", "EXDEV")
+             if hasattr(errno, n)}
 
 
 def _restore_owner(path: Path, st: os.stat_result) -> None:
@@ -499,6 +529,8 @@ def _remove_stale_temps(target: Path) -> None:
 def _alive(pid: int) -> bool:
     if pid == os.getpid():
         return False
+    if os.name == "nt":             # os.kill(pid, 0) would terminate the process there
+        return True                 # so temp files are kept (never someone else's removed)
     try:
         os.kill(pid, 0)
     except ProcessLookupError:

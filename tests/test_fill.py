@@ -225,7 +225,7 @@ def test_cli_fill_json_and_folder(tmp_path, capsys):
     assert d["failed"][0]["error"].count(str(tmp_path / "c.xlsx")) == 1     # the path once
     code = main(["fill", str(tmp_path / "a.xlsx"), "-o", str(tmp_path / "a2.xlsx")])
     out, err = capsys.readouterr()
-    assert code == 1 and "cells" in out and "Design!B9:" in out and "1 cell hold errors" in err
+    assert code == 1 and "cells" in out and "Design!B9:" in out and "1 cell holds errors" in err
     code = main(["fill", str(tmp_path / "c.xlsx"), "-o", str(tmp_path / "c2.xlsx")])
     assert code == 2 and not (tmp_path / "c2.xlsx").exists()          # nothing written
 

@@ -175,6 +175,14 @@ def test_cli_one_warning_exit_0(tmp_path):
     assert r.stderr.count("warning:") == 1 and "result cache off" in r.stderr
 
 
+def test_sqlite3_is_imported_only_when_the_cache_is_used():
+    code = ("import sys, sheetfuncs, sheetfuncs.api, sheetfuncs.cellfuncs, sheetfuncs.fill\n"
+            "print('sqlite3' in sys.modules)\n")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120,
+                       env=dict(os.environ, PYTHONPATH=str(ROOT)))
+    assert r.returncode == 0 and r.stdout.strip() == "False", r.stderr
+
+
 def test_package_imports_and_fills_without_sqlite3(tmp_path):
     """A Python without sqlite3 (as in Pyodide) imports the package; the cache turns itself off."""
     src = build_book(tmp_path / "b.xlsx")

@@ -13,6 +13,7 @@ from pathlib import Path
 
 import pytest
 
+from sheetfuncs.fill import fill_workbook
 from tests.faults.compare import differences
 from tests.faults.conftest import ROOT, build_book, run_cli, tmpfs
 
@@ -66,8 +67,8 @@ def test_symlink_is_filled_through_and_kept(tmp_path):
     original = target.read_bytes()
     link = tmp_path / "link.xlsx"
     link.symlink_to(target)
-    r = run_cli("fill", link, "--in-place", "--no-cache")
-    assert r.returncode == 0, r.stderr
+    report = fill_workbook(link, in_place=True, use_cache=False)
+    assert report.errors == 0
     assert link.is_symlink() and os.readlink(link) == str(target)
     assert (real / "book.xlsx.bak").read_bytes() == original
     assert differences(real / "book.xlsx.bak", target) == [] and target.read_bytes() != original
@@ -78,8 +79,7 @@ def test_owner_group_and_mode_are_kept(tmp_path):
     book = build_book(tmp_path / "book.xlsx")
     os.chown(book, 1234, 2345)
     os.chmod(book, 0o640)
-    r = run_cli("fill", book, "--in-place", "--no-cache")
-    assert r.returncode == 0, r.stderr
+    fill_workbook(book, in_place=True, use_cache=False)
     for p in (book, tmp_path / "book.xlsx.bak"):
         st = p.stat()
         assert (st.st_uid, st.st_gid, st.st_mode & 0o7777) == (1234, 2345, 0o640), p
@@ -88,10 +88,11 @@ def test_owner_group_and_mode_are_kept(tmp_path):
 def test_the_first_backup_is_kept(tmp_path):
     book = build_book(tmp_path / "book.xlsx")
     original = book.read_bytes()
-    assert run_cli("fill", book, "--in-place", "--no-cache").returncode == 0
+    assert fill_workbook(book, in_place=True, use_cache=False).backup == str(tmp_path / "book.xlsx.bak")
     filled_once = book.read_bytes()
     r = run_cli("fill", book, "--in-place", "--no-cache")
     assert r.returncode == 0, r.stderr
+    assert "kept from an earlier run" in r.stdout
     assert (tmp_path / "book.xlsx.bak").read_bytes() == original       # never replaced
     assert differences(filled_once, book) == [] and not temps(tmp_path)
 
@@ -99,8 +100,8 @@ def test_the_first_backup_is_kept(tmp_path):
 def test_hard_link_is_reported(tmp_path):
     book = build_book(tmp_path / "book.xlsx")
     os.link(book, tmp_path / "other.xlsx")
-    r = run_cli("fill", book, "--in-place", "--no-cache")
-    assert r.returncode == 0 and "hard links" in r.stderr
+    report = fill_workbook(book, in_place=True, use_cache=False)
+    assert any("hard links" in w for w in report.warnings)
 
 
 def test_concurrent_in_place_runs_one_after_the_other(tmp_path):
@@ -139,8 +140,7 @@ def test_stale_temp_of_a_killed_run_is_removed_by_the_next(tmp_path):
     proc.wait(30)
     left = temps(tmp_path)
     assert left and book.read_bytes() == original
-    r = run_cli("fill", book, "--in-place", "--no-cache")
-    assert r.returncode == 0, r.stderr
+    fill_workbook(book, in_place=True, use_cache=False)
     assert not temps(tmp_path) and differences(tmp_path / "book.xlsx.bak", book) == []
 
 
