@@ -16,7 +16,9 @@ from __future__ import annotations
 
 import contextlib
 import contextvars
+import dataclasses
 import functools
+import inspect
 import math
 import re
 from typing import Callable
@@ -69,18 +71,99 @@ class _Empty(Exception):
     pass
 
 
+#: the most characters a cell holds (Excel's limit; fill, xlwings and LibreOffice results keep to it)
+CELL_TEXT_LIMIT = 32_767
+
+
+def cap_text(text: str) -> str:
+    """The text itself, or a clear message when it is longer than a cell holds."""
+    if len(text) <= CELL_TEXT_LIMIT:
+        return text
+    return (f"{ERROR_MARK} the result has {len(text):,} characters, more than the {CELL_TEXT_LIMIT:,} "
+            f"a cell holds (fewer digits or parameter values as numbers may shorten it)")
+
+
+def _capped(value):
+    if isinstance(value, str):
+        return cap_text(value)
+    if isinstance(value, list):
+        return [[cap_text(c) if isinstance(c, str) else c for c in row] if isinstance(row, list) else row
+                for row in value]
+    return value
+
+
 def cell(func: Callable) -> Callable:
-    """Turn errors into cell text and empty input into an empty result."""
+    """Turn errors into cell text, empty input into an empty result, and cap long texts."""
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         try:
-            return func(*args, **kwargs)
+            return _capped(func(*args, **kwargs))
         except _Empty:
             return ""
         except Exception as exc:  # noqa: BLE001 - a cell shows every failure as text
             return error_text(exc)
     wrapper.plain = func
     return wrapper
+
+
+# ---------------------------------------------------------------- metadata
+# One place for what the adapters show about a function (xlwings wrappers, the VBA-name
+# check, the LibreOffice extension's IDL and CalcAddIns.xcu): the signature, and the docstring
+# in this form: first line a one-line description, then a Google-style ``Args:`` section with
+# one ``name: description`` line per argument (``name (range): ...`` for an argument that
+# takes a range of cells).
+@dataclasses.dataclass(frozen=True)
+class ArgInfo:
+    name: str
+    description: str
+    is_range: bool
+    required: bool
+
+
+@dataclasses.dataclass(frozen=True)
+class FunctionInfo:
+    name: str            # cell name, e.g. SF_INVERSE
+    summary: str         # the docstring's first line
+    args: tuple          # of ArgInfo, in signature order
+
+
+_ARG_LINE = re.compile(r"^\s+([A-Za-z_][A-Za-z0-9_]*)\s*(?:\(([^)]*)\))?\s*:\s*(.*\S)\s*$")
+
+
+def describe(name: str, func: Callable | None = None) -> FunctionInfo:
+    """Metadata of one cell function from its signature and docstring (missing text stays empty)."""
+    func = func if func is not None else FUNCTIONS[name]
+    doc = inspect.getdoc(func) or ""
+    lines = doc.splitlines()
+    summary = lines[0].strip() if lines else ""
+    described: dict[str, tuple[str, bool]] = {}
+    in_args = False
+    for line in lines[1:]:
+        if line.strip() == "Args:":
+            in_args = True
+            continue
+        if in_args:
+            m = _ARG_LINE.match(line)
+            if m:
+                described[m.group(1)] = (m.group(3), "range" in (m.group(2) or "").lower())
+            elif line.strip() and not line.startswith(" "):
+                in_args = False                      # the next section
+            elif line.strip() and described:       # a continuation line
+                last = list(described)[-1]
+                text, rng = described[last]
+                described[last] = (f"{text} {line.strip()}", rng)
+    args = []
+    for p in inspect.signature(func).parameters.values():
+        if p.kind not in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD):
+            continue
+        text, rng = described.get(p.name, ("", False))
+        args.append(ArgInfo(p.name, text, rng, p.default is p.empty))
+    return FunctionInfo(name, summary, tuple(args))
+
+
+def catalogue() -> list[FunctionInfo]:
+    """Metadata of every function in FUNCTIONS, in their order."""
+    return [describe(n, f) for n, f in FUNCTIONS.items()]
 
 
 # ---------------------------------------------------------------- converters
@@ -203,7 +286,14 @@ FORMS = ("text", "sympy", "latex")
 
 @cell
 def inverse(expr, params=None, form=None, digits=None):
-    """f(t) of F(s): 'text' (default), 'sympy' or 'latex'."""
+    """f(t) for t >= 0 of F(s), as display text, SymPy text or LaTeX.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        form: output form: text (default), sympy or latex
+        digits: significant digits of the numbers (empty: full precision)
+    """
     from .printing import to_display, to_latex, to_sympy_text
     res = api.invert(_expr(expr), params_of(params))
     form = _text(form, "text").lower()
@@ -221,7 +311,14 @@ def inverse(expr, params=None, form=None, digits=None):
 
 @cell
 def sheet_formula(expr, tref=None, params=None, digits=None):
-    """A native spreadsheet formula of f(t) in terms of the cell ``tref`` (text)."""
+    """A native spreadsheet formula of f(t) in terms of the time in cell tref.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        tref: address of the time cell as text, e.g. "A7" (default A1)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        digits: significant digits of the constants (default 15)
+    """
     res = api.invert(_expr(expr), params_of(params))
     ref = _text(tref, "A1")
     return api.excel_formula(res, ref, digits=_number(digits, "digits", 15, integer=True))
@@ -229,7 +326,13 @@ def sheet_formula(expr, tref=None, params=None, digits=None):
 
 @cell
 def partfrac_table(expr, params=None, digits=None):
-    """Rows: pole, order, coefficient, real-form term, time term (header first)."""
+    """Partial-fraction table: pole, order, coefficient, real-form term, time term.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        digits: significant digits of the numbers (default 6)
+    """
     from .printing import to_display
     nd = _number(digits, "digits", 6, integer=True)
     res = api.invert(_expr(expr), params_of(params))
@@ -271,7 +374,13 @@ def _real_form(pt: PairTerm):
 
 @cell
 def poles_table(expr, params=None, digits=None):
-    """Rows: kind, real, imaginary, multiplicity, damping ratio, natural frequency, time constant."""
+    """Poles and zeros with damping ratio, natural frequency and time constant; stability last.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        digits: significant digits of the numbers (empty: full precision)
+    """
     nd = _number(digits, "digits", 0, integer=True) or None
     f = api.figures(_expr(expr), params_of(params), input="impulse")
     rows = [["kind", "real part", "imaginary part", "multiplicity", "damping ratio",
@@ -287,6 +396,12 @@ def poles_table(expr, params=None, digits=None):
 
 @cell
 def stability(expr, params=None):
+    """Stability verdict of F(s) from its poles.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     return api.figures(_expr(expr), params_of(params), input="impulse").stability
 
 
@@ -302,10 +417,17 @@ def _response_result(expr: str, input, params: dict):
 
 
 @cell
-def response(expr, t, input=None, params=None):
-    """y(t) of the response to input (impulse, step, ramp or U(s)) at one time t."""
+def response(expr, t, excitation=None, params=None):
+    """Response y(t) of F(s) to an input signal at one time t.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        t: the time (a number, t >= 0 for a causal response)
+        excitation: input signal: impulse, step, ramp or U(s) as text (default impulse)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     from .engine.sample import sample_result
-    res = _response_result(_expr(expr), _input(input), params_of(params))
+    res = _response_result(_expr(expr), _input(excitation), params_of(params))
     tt = _number(t, "t")
     y = float(sample_result(res, np.array([tt])).y[0])
     if not math.isfinite(y):
@@ -314,18 +436,27 @@ def response(expr, t, input=None, params=None):
 
 
 @cell
-def response_table(expr, times, stop=None, n=None, input=None, params=None):
-    """Rows t, y: over ``times`` (a column of times) or from start ``times`` to ``stop`` in ``n`` points."""
+def response_table(expr, times, t_end=None, n=None, excitation=None, params=None):
+    """Table of t and y: over a column of times, or from a start time to t_end in n points.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        times (range): a column of times, or one start time
+        t_end: last time, when times is one start time
+        n: number of points from start to t_end (default 101)
+        excitation: input signal: impulse, step, ramp or U(s) as text (default impulse)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     from .engine.sample import sample_result, time_grid
     e = _expr(expr)
     if isinstance(times, (list, tuple)) and len(_vector(times, "times")) > 1:
         grid = time_grid([_number(x, "a time") for x in _vector(times, "times")])
     else:
         start = _number(times, "start time")
-        grid = time_grid(None, start, _number(stop, "stop time"), _number(n, "number of points", 101, integer=True))
+        grid = time_grid(None, start, _number(t_end, "end time t_end"), _number(n, "number of points", 101, integer=True))
     if grid.size > MAX_TABLE_ROWS:
         raise SamplingError(f"{grid.size} rows is above the limit of {MAX_TABLE_ROWS}")
-    res = _response_result(e, _input(input), params_of(params))
+    res = _response_result(e, _input(excitation), params_of(params))
     out = sample_result(res, grid)
     rows = [["t", "y"]]
     rows += [[float(a), float(b) if math.isfinite(b) else ""] for a, b in zip(out.t, out.y)]
@@ -350,12 +481,20 @@ def _figures(expr, input, params, band):
 
 
 @cell
-def figure(expr, which, input=None, params=None, band=None):
-    """One response figure by name (final value, overshoot, settling time ...)."""
+def figure(expr, which, excitation=None, params=None, band=None):
+    """One response figure by name: final value, overshoot, rise, peak or settling time ...
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        which: name of the figure, e.g. "overshoot", "settling time", "final value"
+        excitation: input signal: impulse, step, ramp or U(s) as text (default step)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        band: settling band as a fraction of the final value (default 0.02)
+    """
     key = _text(which, "").lower().replace("_", " ")
     if key not in FIGURE_NAMES:
         raise ParameterError(f"unknown figure '{which}'; use one of: {', '.join(sorted(set(FIGURE_NAMES)))}")
-    f = _figures(expr, input, params, band)
+    f = _figures(expr, excitation, params, band)
     value = getattr(f, FIGURE_NAMES[key])
     if value is None:
         return f"{ERROR_MARK} {f.final_value_note}" if key == "final value" else ""
@@ -365,9 +504,16 @@ def figure(expr, which, input=None, params=None, band=None):
 
 
 @cell
-def figures_block(expr, input=None, params=None, band=None):
-    """A labelled two-column block of the response figures."""
-    f = _figures(expr, input, params, band)
+def figures_block(expr, excitation=None, params=None, band=None):
+    """Labelled two-column block of the response figures.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        excitation: input signal: impulse, step, ramp or U(s) as text (default step)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        band: settling band as a fraction of the final value (default 0.02)
+    """
+    f = _figures(expr, excitation, params, band)
     rows = []
     for label, attr in _FIGURE_LABELS:
         if attr in ("rise_time", "peak_time", "peak_value", "overshoot_percent", "settling_time") and f.input != "step":
@@ -394,7 +540,15 @@ ODE_PARTS = {"y": "y", "y(t)": "y", "y(s)": "Y", "free": "free", "forced": "forc
 
 @cell
 def ode(coeffs, initial=None, input_s=None, params=None, part=None):
-    """Y(s) or y(t) (or its free / forced part) of a_n y^(n) + ... + a_0 y = u(t)."""
+    """y(t), Y(s), or the free or forced part of a_n y^(n) + ... + a_0 y = u(t).
+
+    Args:
+        coeffs (range): coefficients a_n ... a_0, highest derivative first
+        initial (range): initial values y(0), y'(0), ... (empty: all zero)
+        input_s: U(s), the transform of the forcing u(t), as text (empty: no forcing)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        part: y(t) (default), Y(s), free or forced
+    """
     from .printing import to_display
     key = _text(part, "y(t)").lower()
     if key not in ODE_PARTS:
@@ -409,7 +563,15 @@ def ode(coeffs, initial=None, input_s=None, params=None, part=None):
 
 @cell
 def ode_at(coeffs, initial, t, input_s=None, params=None):
-    """y(t) of the ODE solution at one time."""
+    """y(t) of the solution of a_n y^(n) + ... + a_0 y = u(t) at one time t.
+
+    Args:
+        coeffs (range): coefficients a_n ... a_0, highest derivative first
+        initial (range): initial values y(0), y'(0), ... (empty: all zero)
+        t: the time (a number)
+        input_s: U(s), the transform of the forcing u(t), as text (empty: no forcing)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     from .engine.sample import sample_result
     sol = _ode(coeffs, initial, input_s, params)
     return float(sample_result(sol.y, np.array([_number(t, "t")])).y[0])
@@ -417,13 +579,23 @@ def ode_at(coeffs, initial, t, input_s=None, params=None):
 
 @cell
 def transform(signal, params=None):
-    """F(s) of a time signal such as 'exp(-2t) sin(3t)' or 'u(t) - u(t-1)'."""
+    """F(s) of a time signal such as exp(-2t) sin(3t) or u(t) - u(t-1).
+
+    Args:
+        signal: f(t) as text, or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     return api.s_text(api.transform(_expr(signal, "signal"), params_of(params)))
 
 
 @cell
 def self_check(expr, params=None):
-    """Largest deviation of the closed form from a numerical inversion."""
+    """Largest deviation of the closed-form f(t) from an independent numerical inversion.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     res = api.invert(_expr(expr), params_of(params))
     if res.f_t is None:
         raise UnsupportedExpressionError("a numerical result has nothing to check against")
