@@ -8,7 +8,9 @@ function added there shows up in Calc after a rebuild:
   ``unoidl-write``): one interface with a method per function, every visible
   argument of type ``any`` (a number, a text or a range; omitted arguments
   arrive empty), then a hidden ``XPropertySet`` that Calc fills with the
-  document (for its defined names);
+  document (for its defined names).  Every method returns rows of values
+  (``sequence<sequence<any>>``; a single value is one row of one): pyuno
+  converts a Python tuple returned as ``any`` into a form Calc refuses;
 - ``CalcAddIns.xcu``: display names, descriptions, category and the
   compatibility name (the name stored in .xlsx files, so that a book written
   by ``fill`` binds to the extension and is saved back under the SF_ names);
@@ -86,7 +88,7 @@ def idl_text(functions=None) -> str:
     for f in functions:
         params = [f"[in] any {idl_name(a.name)}" for a in f.args]
         params.append(f"[in] com::sun::star::beans::XPropertySet {CALLER_ARG}")
-        lines.append(f"    any {f.name}({', '.join(params)});")
+        lines.append(f"    sequence< sequence< any > > {f.name}({', '.join(params)});")
     lines.append("};")
     lines.append(" ".join("};" for _ in parts))
     return "\n".join(lines) + "\n"

@@ -221,14 +221,20 @@ def _plain(value):
 
 
 def _to_calc(value):
-    """A worker answer as Calc takes it from an ``any`` result."""
-    if isinstance(value, list):
-        rows = tuple(tuple(c if isinstance(c, (float, str)) else ("" if c is None else float(c))
-                           for c in row) for row in value)
-        return uno.Any("[][]any", rows)
-    if isinstance(value, (int, float)) and not isinstance(value, bool):
-        return float(value)
-    return "" if value is None else str(value)
+    """A worker answer as the rows Calc takes (a single value is one row of one)."""
+    if not isinstance(value, list):
+        value = [[value]]
+    return tuple(tuple(_cell(c) for c in row) for row in value)
+
+
+def _cell(c):
+    if isinstance(c, str):
+        return c
+    if c is None:
+        return ""
+    if isinstance(c, (int, float)) and not isinstance(c, bool):
+        return float(c)
+    return str(c)
 
 
 def _document_names(doc):
@@ -300,7 +306,7 @@ def _method(name, nargs):
             names = _document_names(doc)
             return _to_calc(worker().call(name, [_plain(a) for a in visible], names))
         except Exception as exc:  # noqa: BLE001 - a cell shows every failure as text
-            return "%s extension error (%s: %s)" % (ERROR_MARK, type(exc).__name__, exc)
+            return (("%s extension error (%s: %s)" % (ERROR_MARK, type(exc).__name__, exc),),)
     method.__name__ = name
     return method
 
