@@ -33,7 +33,7 @@ class Office:
             [SOFFICE, "-env:UserInstallation=" + uno.systemPathToFileUrl(os.path.abspath(profile)),
              "--headless", "--invisible", "--norestore", "--nolockcheck", "--nodefault", "--nologo",
              "--accept=pipe,name=%s;urp;StarOffice.ComponentContext" % self.pipe],
-            stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL, stderr=None,
+            stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
             start_new_session=True)
         local = uno.getComponentContext()
         resolver = local.ServiceManager.createInstanceWithContext("com.sun.star.bridge.UnoUrlResolver", local)
@@ -124,7 +124,8 @@ class Office:
         return {"seconds": time.perf_counter() - t0}
 
     def save(self, path, filter_name="Calc MS Excel 2007 XML"):
-        self.doc.storeToURL(uno.systemPathToFileUrl(os.path.abspath(path)),
+        """Save As (the document then lives at path, as after File > Save As)."""
+        self.doc.storeAsURL(uno.systemPathToFileUrl(os.path.abspath(path)),
                             (prop("FilterName", filter_name), prop("Overwrite", True)))
 
     def functions(self, prefix):

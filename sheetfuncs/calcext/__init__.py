@@ -270,6 +270,7 @@ def build(path, *, python: str | None = None, pythonpath: list[str] | None = Non
             "functions.json": spec_json(functions),
             "worker.json": json.dumps(cfg, indent=1) + "\n",
             COMPONENT_FILE: (HERE / "component.py").read_text(encoding="utf-8"),
+            "pythonpath/sheetfuncs_calc_client.py": (HERE / "client.py").read_text(encoding="utf-8"),
         }
         path.parent.mkdir(parents=True, exist_ok=True)
         tmp_out = path.with_name(path.name + ".part")
