@@ -21,8 +21,9 @@ class WorkerUnavailable(Exception):
 class Worker:
     """One sheetfuncs process, spoken to in JSON lines over its stdin / stdout."""
 
-    def __init__(self, config, error_mark="#SF!", start_timeout=120.0, call_timeout=120.0):
+    def __init__(self, config, error_mark="#SF!", start_timeout=120.0, call_timeout=120.0, on_ready=None):
         self.config = config
+        self.on_ready = on_ready      # called with the seconds from start to ready
         self.error_mark = error_mark
         self.start_timeout = start_timeout
         self.call_timeout = call_timeout
@@ -132,6 +133,8 @@ class Worker:
             raise WorkerUnavailable("it answered %r at start" % (first,))
         self.ready = True
         self.start_seconds = time.perf_counter() - self.started_at
+        if self.on_ready is not None:
+            self.on_ready(self.start_seconds)
 
     def _ensure(self):
         if self.failed and time.monotonic() - self.failed[0] < 5.0:

@@ -108,7 +108,8 @@ def worker():
     global _WORKER
     with _WORKER_LOCK:
         if _WORKER is None:
-            _WORKER = Worker(_read_json("worker.json"), ERROR_MARK)
+            _WORKER = Worker(_read_json("worker.json"), ERROR_MARK,
+                             on_ready=lambda sec: _log("worker ready %.3f s after its start" % sec))
         return _WORKER
 
 
