@@ -98,14 +98,20 @@ def _call(plain, names, caller, *args):
         return plain(*args)
 
 
-def _wrapper(info):
-    """An xlwings function with the cell function's exact argument list."""
+def wrapper(info, *, with_caller: bool = True, decorators=None):
+    """An xlwings function with the cell function's exact argument list.
+
+    ``with_caller``: add xlwings' hidden ``caller`` (classic xlwings on Windows) for the
+    workbook's defined names; xlwings Lite has none (``sheetfuncs.lite``)."""
+    deco = decorators if decorators is not None else xw
     args = [a.name for a in info.args]
     if not all(a.isidentifier() for a in args) or not info.name.isidentifier():
         raise ValueError(f"{info.name}: argument names must be identifiers")
     sig = ", ".join(a.name if a.required else f"{a.name}=None" for a in info.args)
-    src = (f"def {info.name}({sig}{', ' if sig else ''}caller=None):\n"
-           f"    return _call(_plain, _names, caller, {', '.join(args)})\n")
+    extra = ("caller=None", "caller") if with_caller else ("", "None")
+    params = ", ".join(p for p in (sig, extra[0]) if p)
+    src = (f"def {info.name}({params}):\n"
+           f"    return _call(_plain, _names, {extra[1]}, {', '.join(args)})\n")
     scope = {"_call": _call, "_plain": _cf.FUNCTIONS[info.name], "_names": tuple(args)}
     exec(compile(src, f"<sheetfuncs.cells {info.name}>", "exec"), scope)   # our own identifiers only
     f = scope[info.name]
@@ -115,12 +121,12 @@ def _wrapper(info):
         opts = {"doc": a.description, "err_to_str": True}
         if a.is_range:
             opts["ndim"] = 2
-        f = xw.arg(a.name, **opts)(f)
-    return xw.func(category=CATEGORY, call_in_wizard=False)(f)
+        f = deco.arg(a.name, **opts)(f)
+    return deco.func(category=CATEGORY, call_in_wizard=False)(f)
 
 
 #: the exported cell functions, by name
 CELL_FUNCTIONS = {}
 for _info in _cf.catalogue():
-    CELL_FUNCTIONS[_info.name] = globals()[_info.name] = _wrapper(_info)
+    CELL_FUNCTIONS[_info.name] = globals()[_info.name] = wrapper(_info)
 del _info

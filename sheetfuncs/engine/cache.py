@@ -15,7 +15,6 @@ import functools
 import hashlib
 import json
 import os
-import sqlite3
 import threading
 from collections import OrderedDict
 from pathlib import Path
@@ -103,6 +102,7 @@ class ResultStore:
 
     def _db(self):
         if self._conn is None:
+            import sqlite3              # on use: Pyodide (xlwings Lite) loads it apart
             self.path.parent.mkdir(parents=True, exist_ok=True)
             conn = sqlite3.connect(self.path, timeout=30, isolation_level=None,
                                    check_same_thread=False)
