@@ -280,6 +280,28 @@ def _fmt(x, digits):
     return float(f"{x:.{digits}g}") if digits else float(x)
 
 
+#: what the per-cell form of a table gives past the table's end: it shows as nothing, and is
+#: not the empty text that LibreOffice 7.4 recomputes on load (#NAME? without the extension)
+PAST_TABLE = "\u00a0"      # a no-break space (an XML reader keeps it; a plain space is dropped)
+
+
+def _pick(rows, row, col):
+    """The whole table, or its one cell at (row, col), 1-based; PAST_TABLE past its end.
+
+    The per-cell form lets a workbook hold a table as one formula per cell, which every
+    spreadsheet program recomputes in place (no spill range, no stale neighbours)."""
+    if (row is None or row == "") and (col is None or col == ""):
+        return rows
+    r = _number(row, "row", integer=True)
+    c = _number(col, "col", integer=True)
+    if r < 1 or c < 1:
+        raise ParameterError(f"row and col count from 1, got {r}, {c}")
+    if r > len(rows) or c > len(rows[r - 1]):
+        return PAST_TABLE
+    value = rows[r - 1][c - 1]
+    return PAST_TABLE if value == "" or value is None else value
+
+
 # ---------------------------------------------------------------- functions
 FORMS = ("text", "sympy", "latex")
 
@@ -325,13 +347,15 @@ def sheet_formula(expr, tref=None, params=None, digits=None):
 
 
 @cell
-def partfrac_table(expr, params=None, digits=None):
+def partfrac_table(expr, params=None, digits=None, row=None, col=None):
     """Partial-fraction table: pole, order, coefficient, real-form term, time term.
 
     Args:
         expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
         params (range): two-column range of parameter names and values (blank rows skipped)
         digits: significant digits of the numbers (default 6)
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     from .printing import to_display
     nd = _number(digits, "digits", 6, integer=True)
@@ -351,7 +375,7 @@ def partfrac_table(expr, params=None, digits=None):
             rows.append([complex_text(pair(term.pole), nd), term.order, complex_text(pair(term.coefficient), nd),
                          to_display(real_form, digits=nd) if j == 0 else "(with the row above)",
                          to_display(time_term, digits=nd) if j == 0 else "(with the row above)"])
-    return rows
+    return _pick(rows, row, col)
 
 
 def _terms_of(pt: PairTerm):
@@ -373,13 +397,15 @@ def _real_form(pt: PairTerm):
 
 
 @cell
-def poles_table(expr, params=None, digits=None):
+def poles_table(expr, params=None, digits=None, row=None, col=None):
     """Poles and zeros with damping ratio, natural frequency and time constant; stability last.
 
     Args:
         expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
         params (range): two-column range of parameter names and values (blank rows skipped)
         digits: significant digits of the numbers (empty: full precision)
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     nd = _number(digits, "digits", 0, integer=True) or None
     f = api.figures(_expr(expr), params_of(params), input="impulse")
@@ -391,7 +417,7 @@ def poles_table(expr, params=None, digits=None):
     for z in f.zeros:
         rows.append(["zero", _fmt(z.real, nd), _fmt(z.imag, nd), 1, "", "", ""])
     rows.append(["stability", f.stability, "", "", "", "", ""])
-    return rows
+    return _pick(rows, row, col)
 
 
 @cell
@@ -436,7 +462,7 @@ def response(expr, t, excitation=None, params=None):
 
 
 @cell
-def response_table(expr, times, t_end=None, n=None, excitation=None, params=None):
+def response_table(expr, times, t_end=None, n=None, excitation=None, params=None, row=None, col=None):
     """Table of t and y: over a column of times, or from a start time to t_end in n points.
 
     Args:
@@ -446,6 +472,8 @@ def response_table(expr, times, t_end=None, n=None, excitation=None, params=None
         n: number of points from start to t_end (default 101)
         excitation: input signal: impulse, step, ramp or U(s) as text (default impulse)
         params (range): two-column range of parameter names and values (blank rows skipped)
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     from .engine.sample import sample_result, time_grid
     e = _expr(expr)
@@ -460,7 +488,7 @@ def response_table(expr, times, t_end=None, n=None, excitation=None, params=None
     out = sample_result(res, grid)
     rows = [["t", "y"]]
     rows += [[float(a), float(b) if math.isfinite(b) else ""] for a, b in zip(out.t, out.y)]
-    return rows
+    return _pick(rows, row, col)
 
 
 FIGURE_NAMES = {
@@ -504,7 +532,7 @@ def figure(expr, which, excitation=None, params=None, band=None):
 
 
 @cell
-def figures_block(expr, excitation=None, params=None, band=None):
+def figures_block(expr, excitation=None, params=None, band=None, row=None, col=None):
     """Labelled two-column block of the response figures.
 
     Args:
@@ -512,6 +540,8 @@ def figures_block(expr, excitation=None, params=None, band=None):
         excitation: input signal: impulse, step, ramp or U(s) as text (default step)
         params (range): two-column range of parameter names and values (blank rows skipped)
         band: settling band as a fraction of the final value (default 0.02)
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     f = _figures(expr, excitation, params, band)
     rows = []
@@ -520,7 +550,7 @@ def figures_block(expr, excitation=None, params=None, band=None):
             continue
         v = getattr(f, attr)
         rows.append([label, "" if v is None else v])
-    return rows
+    return _pick(rows, row, col)
 
 
 def _ode(coeffs, initial, input_s, params):

@@ -54,6 +54,40 @@ PARTFRAC_STYLE = {1: _CENTER}
 BLOCK_STYLE = {1: SCI}
 
 
+def _split_args(text: str) -> list[str]:
+    """Top-level comma-separated arguments of a formula's call (quotes and brackets kept)."""
+    out, depth, quote, cur = [], 0, False, ""
+    for ch in text:
+        if ch == '"':
+            quote = not quote
+        elif not quote and ch == "(":
+            depth += 1
+        elif not quote and ch == ")":
+            depth -= 1
+        elif not quote and depth == 0 and ch == ",":
+            out.append(cur)
+            cur = ""
+            continue
+        cur += ch
+    out.append(cur)
+    return [a.strip() for a in out] if text.strip() else []
+
+
+def cell_form(formula: str, row: int, col: int) -> str:
+    """'=SF_POLES(G,P)' -> '=SF_POLES(G,P,"",row,col)': the per-cell form of a table function."""
+    from .cellfuncs import describe
+    m = re.fullmatch(r"=(SF_[A-Z_]+)\((.*)\)", formula.strip(), re.S)
+    if not m:
+        raise ValueError(f"not a table function call: {formula}")
+    name, args = m.group(1), _split_args(m.group(2))
+    names = [a.name for a in describe(name).args]
+    at = names.index("row")
+    if len(args) > at:
+        raise ValueError(f"{formula}: arguments past row/col")
+    args += ['""'] * (at - len(args))
+    return f"={name}({','.join(args + [str(row), str(col)])})"
+
+
 def _abs(cell: str) -> str:
     """'B14' -> '$B$14'."""
     m = re.fullmatch(r"([A-Z]+)(\d+)", cell)
@@ -151,10 +185,16 @@ class _Calc:
 
     def spill(self, what: str, formula: str, *, col: str = "A", at: int | None = None,
               room: tuple = TABLE_ROOM, style: dict | None = None) -> int:
-        """An array formula's anchor and its empty room; returns the anchor row."""
+        """A table as one per-cell formula (row, col of the table) over its room; returns the top row.
+
+        The array form (one anchor that spills) stays for interactive use; a book holds the
+        per-cell form so that Excel shows no spill error, LibreOffice leaves no stale
+        neighbours, and a program without the functions shows the cached values."""
         r = self.row if at is None else at
         rows, cols = room
-        self.ws[f"{col}{r}"] = formula
+        for dr in range(rows):          # one formula per cell: recomputed in place by any program
+            for dc in range(cols):
+                self.ws.cell(row=r + dr, column=ord(col) - 64 + dc).value = cell_form(formula, dr + 1, dc + 1)
         for off, fmt in (style or {}).items():
             for rr in range(r + 1 if off == 0 else r, r + rows):
                 cell = self.ws.cell(row=rr, column=ord(col) - 64 + off)
@@ -165,7 +205,7 @@ class _Calc:
         if at is None:
             self.row += rows
         end = chr(ord(col) + cols - 1)
-        self.note(what, f"{col}{r} (spills within {col}{r}:{end}{r + rows - 1})")
+        self.note(what, f"{col}{r}:{end}{r + rows - 1} (one cell of the table per formula)")
         return r
 
     def key_figures(self, title: str, block_title: str, block: str, specs) -> None:

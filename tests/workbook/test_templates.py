@@ -205,24 +205,26 @@ def test_cautions_near_the_top_and_names_excel_accepts(built):
             assert isinstance(wb[sheet][ref.replace("$", "")].value, (int, float))
 
 
-def test_spilling_tables_have_empty_room(built):
-    room = {"SF_PARTFRAC": (12, 7), "SF_POLES": (12, 7), "SF_FIGURES": (9, 2), "SF_RESPONSE_TABLE": (12, 2)}
+def test_tables_are_one_formula_per_cell(built):
+    # a table is held as its per-cell form (row, col of the table in each cell), so that it is
+    # recomputed in place live (no spill range, no stale neighbours)
+    from sheetfuncs.templates import cell_form
+    room = {"SF_PARTFRAC": (13, 7), "SF_POLES": (13, 7), "SF_FIGURES": (10, 3)}
     seen = 0
     for p in built:
         wb = _load(p)
         for sheet, ref, f in _formulas(wb):
-            fn = re.match(r"=\s*(SF_[A-Z_]+)\(", str(f))
+            fn = re.match(r"=\s*(SF_[A-Z_]+)\((.*),1,1\)$", str(f))
             if not fn or fn.group(1) not in room:
                 continue
             ws, (r0, c0) = wb[sheet], _rc(ref)
+            array_form = f"={fn.group(1)}({fn.group(2)})".replace(',""', "")
             rows, cols = room[fn.group(1)]
             merged = {cell for m in ws.merged_cells.ranges for cell in m.cells}
             for r in range(r0, r0 + rows):
                 for c in range(c0, c0 + cols):
-                    if (r, c) == (r0, c0):
-                        continue
-                    assert ws.cell(r, c).value is None, f"{p.name} {sheet}: {ref} spills onto row {r} col {c}"
-                    assert (r, c) not in merged, f"{p.name} {sheet}: {ref} spills into merged cells"
+                    assert ws.cell(r, c).value == cell_form(array_form, r - r0 + 1, c - c0 + 1), (p.name, r, c)
+                    assert (r, c) not in merged, f"{p.name} {sheet}: {ref} table over merged cells"
             seen += 1
     assert seen == 8            # 3 + 3 + 2 + 0 tables and blocks
 
