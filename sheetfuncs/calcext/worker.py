@@ -48,9 +48,51 @@ def _args(values):
     return list(values)
 
 
+class Answers:
+    """Cell values by call, remembered (the cell functions are pure in their arguments and
+    names).  The per-cell form of a table (``row``, ``col``) is answered from the whole
+    table, computed once for all its cells."""
+
+    def __init__(self, size: int = 4096):
+        from .. import cellfuncs
+        self.cf = cellfuncs
+        self.size = size
+        self.memo: dict = {}
+        self.picks = {name: [a.name for a in cellfuncs.describe(name).args]
+                      for name in cellfuncs.FUNCTIONS}
+
+    def _whole(self, name, args, names):
+        key = json.dumps([name, args, names], sort_keys=True, default=str)
+        if key in self.memo:
+            self.memo[key] = self.memo.pop(key)            # most recent last
+            return self.memo[key]
+        with self.cf.name_values(names):
+            value = cell_value(self.cf.FUNCTIONS[name](*args))    # cell functions never raise
+        self.memo[key] = value
+        while len(self.memo) > self.size:
+            self.memo.pop(next(iter(self.memo)))
+        return value
+
+    def __call__(self, name, args, names):
+        arg_names = self.picks[name]
+        full = list(args) + [None] * (len(arg_names) - len(args))
+        if "row" in arg_names and "col" in arg_names:
+            i, j = arg_names.index("row"), arg_names.index("col")
+            row, col = full[i], full[j]
+            if row not in (None, "") or col not in (None, ""):
+                rest = [None if k in (i, j) else v for k, v in enumerate(full)]
+                table = self._whole(name, rest, names)
+                if not isinstance(table, list):
+                    return table                            # an error: every cell says it
+                with self.cf.name_values(names):
+                    return cell_value(self.cf.cell(self.cf._pick)(table, row, col))
+        return self._whole(name, full, names)
+
+
 def serve(inp, out) -> None:
     from .. import __version__
     from .. import cellfuncs
+    answers = Answers()
     out.write(json.dumps({"ready": __version__, "python": sys.executable}) + "\n")
     out.flush()
     for line in inp:
@@ -58,15 +100,13 @@ def serve(inp, out) -> None:
             continue
         try:
             req = json.loads(line)
-            func = cellfuncs.FUNCTIONS[req["f"]]
+            cellfuncs.FUNCTIONS[req["f"]]
             args = _args(req.get("a") or [])
             names = req.get("names") or {}
         except (ValueError, KeyError, TypeError) as exc:
             answer = {"id": None, "e": f"{cellfuncs.ERROR_MARK} bad request to the worker ({exc})"}
         else:
-            with cellfuncs.name_values(names):
-                result = func(*args)            # cell functions never raise
-            answer = {"id": req.get("id"), "r": cell_value(result)}
+            answer = {"id": req.get("id"), "r": answers(req["f"], args, names)}
         out.write(json.dumps(answer) + "\n")
         out.flush()
 
