@@ -279,62 +279,7 @@ def require_office_python() -> str:
     return path
 
 
-class OfficeSession:
-    """One headless LibreOffice on a user profile, driven through python3-uno.
-
-    ``tests/lo_driver.py`` runs under LibreOffice's Python (which has no sheetfuncs) and
-    answers JSON commands; ``ask`` sends one and returns its answer (LibreOfficeError on
-    an error).  The environment has no PYTHONPATH, so LibreOffice cannot import sheetfuncs.
-    """
-
-    def __init__(self, profile, log=None, timeout: float = 300):
-        from sheetfuncs.calcext.install import office_env
-
-        env = office_env()
-        if log:
-            env["SHEETFUNCS_CALC_LOG"] = str(log)
-        exe = soffice_path()
-        if exe:
-            env["SOFFICE"] = exe
-        self.timeout = timeout
-        self.proc = subprocess.Popen([require_office_python(), str(Path(__file__).with_name("lo_driver.py")),
-                                      str(profile)], stdin=subprocess.PIPE, stdout=subprocess.PIPE,
-                                     stderr=subprocess.PIPE, text=True, env=env, start_new_session=True)
-        first = self._line()
-        if '"ready"' not in first:
-            raise LibreOfficeError(f"the UNO driver did not start: {first} {self._err()}")
-
-    def _err(self) -> str:
-        try:
-            return (self.proc.stderr.read() or "")[-800:] if self.proc.poll() is not None else ""
-        except Exception:  # noqa: BLE001
-            return ""
-
-    def _line(self) -> str:
-        import select
-        ready, _, _ = select.select([self.proc.stdout], [], [], self.timeout)
-        if not ready:
-            self.close()
-            raise LibreOfficeError(f"LibreOffice gave no answer within {self.timeout:.0f} s")
-        return self.proc.stdout.readline()
-
-    def ask(self, cmd: str, **kw):
-        import json
-        self.proc.stdin.write(json.dumps({"cmd": cmd, **kw}) + "\n")
-        self.proc.stdin.flush()
-        line = self._line()
-        if not line:
-            raise LibreOfficeError(f"the UNO driver ended: {self._err()}")
-        answer = json.loads(line)
-        if "error" in answer:
-            raise LibreOfficeError(f"{cmd}: {answer['error']}\n{answer.get('trace', '')[-1500:]}")
-        return answer["ok"]
-
-    def close(self) -> None:
-        if self.proc.poll() is None:
-            try:
-                self.proc.stdin.close()
-                self.proc.wait(timeout=60)
-            except Exception:  # noqa: BLE001
-                pass
-        _kill(self.proc, os.name == "posix")
+def OfficeSession(profile, log=None, timeout: float = 300):
+    """A live LibreOffice on ``profile`` (sheetfuncs.calcext.session); skip/fail when missing."""
+    from sheetfuncs.calcext.session import OfficeSession as _Session
+    return _Session(profile, python=require_office_python(), soffice=soffice_path(), log=log, timeout=timeout)

@@ -56,6 +56,11 @@ class BuildError(SheetfuncsError):
     """The extension could not be built (what and why)."""
 
 
+def unodriver_path() -> str:
+    """The script that drives a headless LibreOffice through pyuno (tests, benchmark)."""
+    return str(HERE / "unodriver.py")
+
+
 def catalogue():
     from .. import cellfuncs
     return cellfuncs.catalogue()

@@ -1,6 +1,6 @@
 """Drive a real LibreOffice through python3-uno: run by LibreOffice's Python (not pytest's).
 
-``/usr/bin/python3 tests/lo_driver.py PROFILE_DIR`` starts ``soffice
+``/usr/bin/python3 unodriver.py PROFILE_DIR`` starts ``soffice
 --headless`` on that user profile, connects over a named pipe and then
 answers one JSON command a line on stdin with one JSON line on stdout
 (see ``handle``).  It ends soffice when stdin closes.  Standard library and
