@@ -157,3 +157,24 @@ def test_function_wizard_metadata(office):
         assert [a["name"] for a in f["arguments"]] == [a.name for a in info.args]
         for a, arg in zip(f["arguments"], info.args):
             assert a["description"].startswith(arg.description) and arg.description
+
+
+def test_worker_unavailable_is_said_in_the_cell(tmp_path):
+    """An extension whose recorded Python is gone: the cell says why, LibreOffice goes on."""
+    lo.require_office_python()
+    from sheetfuncs.calcext import install
+    profile = tmp_path / "profile"
+    install.install(profile, python=str(tmp_path / "gone" / "python3"))
+    office = lo.OfficeSession(profile)
+    try:
+        sheet = office.ask("new")["sheet"]
+        office.ask("set", sheet=sheet, row=0, col=0, value='=SF_INVERSE("1/(s+1)")')
+        office.ask("set", sheet=sheet, row=1, col=0, value="=1+1")
+        office.ask("calc", full=True)
+        cells = {(c["row"], c["col"]): c for c in office.ask("cells", formulas_only=True)}
+        text = cells[(0, 0)]["string"]
+        assert text.startswith(f"{cellfuncs.ERROR_MARK} sheetfuncs worker unavailable"), text
+        assert "gone" in text and "sheetfuncs libreoffice install" in text
+        assert cells[(1, 0)]["value"] == 2.0
+    finally:
+        office.close()

@@ -108,9 +108,17 @@ class Office:
                                 "result_type": int(cell.FormulaResultType2) if f.startswith("=") else -1})
         return out
 
+    def new(self):
+        self.close_doc()
+        self.doc = self.desktop.loadComponentFromURL("private:factory/scalc", "_blank", 0,
+                                                     (prop("Hidden", True),))
+        return {"sheet": self.doc.Sheets.getByIndex(0).Name}
+
     def set(self, sheet, row, col, value):
         cell = self.sheet(sheet).getCellByPosition(col, row)
-        if isinstance(value, str):
+        if isinstance(value, str) and value.startswith("="):
+            cell.setFormula(value)
+        elif isinstance(value, str):
             cell.setString(value)
         else:
             cell.setValue(float(value))
@@ -150,6 +158,8 @@ def handle(office, req):
     cmd = req.pop("cmd")
     if cmd == "open":
         return office.open(req["path"])
+    if cmd == "new":
+        return office.new()
     if cmd == "cells":
         return office.cells(req.get("formulas_only", False))
     if cmd == "set":
