@@ -9,6 +9,7 @@ import collections
 import json
 import os
 import queue
+import select
 import subprocess
 import threading
 import time
@@ -70,9 +71,13 @@ class Worker:
             self.starts += 1
             self.started_at = time.perf_counter()
             self.ready = False
-            self.answers = queue.Queue()
             self.stderr_tail.clear()
-            threading.Thread(target=self._pump_out, args=(self.proc, self.answers), daemon=True).start()
+            self._buf = b""
+            if os.name == "posix":          # answers read in the calling thread (select): fastest
+                self.answers = None
+            else:                           # no select on pipes: a reader thread and a queue
+                self.answers = queue.Queue()
+                threading.Thread(target=self._pump_out, args=(self.proc, self.answers), daemon=True).start()
             threading.Thread(target=self._pump_err, args=(self.proc,), daemon=True).start()
 
     def _pump_out(self, proc, answers):
@@ -82,6 +87,26 @@ class Worker:
             except ValueError:
                 answers.put({"bad": raw[:200].decode("utf-8", "replace")})
         answers.put(None)                             # end of output: the process ended
+
+    def _next(self, timeout):
+        """The next answer (a dict), None when the process ended; queue.Empty after timeout."""
+        if self.answers is not None:
+            return self.answers.get(timeout=timeout)
+        fd = self.proc.stdout.fileno()
+        deadline = time.monotonic() + timeout
+        while b"\n" not in self._buf:
+            left = deadline - time.monotonic()
+            if left <= 0 or not select.select([fd], [], [], left)[0]:
+                raise queue.Empty
+            chunk = os.read(fd, 1 << 16)
+            if not chunk:
+                return None
+            self._buf += chunk
+        line, self._buf = self._buf.split(b"\n", 1)
+        try:
+            return json.loads(line.decode("utf-8"))
+        except ValueError:
+            return {"bad": line[:200].decode("utf-8", "replace")}
 
     def _pump_err(self, proc):
         for raw in proc.stderr:
@@ -116,7 +141,7 @@ class Worker:
         if self.ready:
             return
         try:
-            first = self.answers.get(timeout=self.start_timeout)
+            first = self._next(self.start_timeout)
         except queue.Empty:
             self.stop()
             raise WorkerUnavailable("it did not start within %.0f s" % self.start_timeout)
@@ -164,7 +189,7 @@ class Worker:
                 try:
                     self.proc.stdin.write(line.encode("utf-8"))
                     self.proc.stdin.flush()
-                    answer = self.answers.get(timeout=self.call_timeout)
+                    answer = self._next(self.call_timeout)
                 except (OSError, ValueError):
                     answer = None                      # broken pipe: it died
                 except queue.Empty:
