@@ -178,3 +178,20 @@ def test_worker_unavailable_is_said_in_the_cell(tmp_path):
         assert cells[(1, 0)]["value"] == 2.0
     finally:
         office.close()
+
+
+def test_defined_names_are_parameters_as_in_fill(office):
+    """Workbook-level names of one numeric cell are parameters; sheet-level ones are not (as fill)."""
+    sheet = office.ask("new")["sheet"]
+    office.ask("set", sheet=sheet, row=0, col=1, value=2.0)            # B1 = 2, named a (workbook)
+    office.ask("define", name="a", sheet=sheet, row=0, col=1)
+    office.ask("set", sheet=sheet, row=1, col=1, value=3.0)            # B2 = 3, named b (sheet-level)
+    office.ask("define", name="b", sheet=sheet, row=1, col=1, local=True)
+    office.ask("set", sheet=sheet, row=0, col=0, value='=SF_RESPONSE("1/(s+a)";0.5)')
+    office.ask("set", sheet=sheet, row=1, col=0, value='=SF_RESPONSE("1/(s+b)";0.5)')
+    office.ask("calc", full=True)
+    cells = {(c["row"], c["col"]): c for c in office.ask("cells", formulas_only=True)}
+    # 1/(s+a) <-> exp(-a t) (Laplace table): exp(-1) at t = 0.5 with a = 2
+    assert cells[(0, 0)]["value"] == pytest.approx(math.exp(-1.0), rel=1e-12)
+    assert cells[(1, 0)]["string"].startswith(cellfuncs.ERROR_MARK)     # b is no parameter
+    office.ask("close")

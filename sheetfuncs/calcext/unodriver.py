@@ -123,6 +123,15 @@ class Office:
         else:
             cell.setValue(float(value))
 
+    def define(self, name, sheet, row, col, local=False):
+        """A defined name for one cell: workbook-level, or sheet-level when local."""
+        from com.sun.star.table import CellAddress
+        sh = self.sheet(sheet)
+        addr = CellAddress(sh.getRangeAddress().Sheet, col, row)
+        ref = "$%s.$%s$%d" % (sheet, _col_letters(col), row + 1)
+        target = sh.NamedRanges if local else self.doc.NamedRanges
+        target.addNewByName(name, ref, addr, 0)
+
     def calc(self, full=False):
         t0 = time.perf_counter()
         if full:
@@ -154,6 +163,15 @@ class Office:
         return [list(x) for x in mgr.getExtensionList()]
 
 
+def _col_letters(c):
+    out = ""
+    c += 1
+    while c:
+        c, r = divmod(c - 1, 26)
+        out = chr(65 + r) + out
+    return out
+
+
 def handle(office, req):
     cmd = req.pop("cmd")
     if cmd == "open":
@@ -164,6 +182,9 @@ def handle(office, req):
         return office.cells(req.get("formulas_only", False))
     if cmd == "set":
         office.set(req["sheet"], req["row"], req["col"], req["value"])
+        return None
+    if cmd == "define":
+        office.define(req["name"], req["sheet"], req["row"], req["col"], req.get("local", False))
         return None
     if cmd == "calc":
         return office.calc(req.get("full", False))
