@@ -149,3 +149,31 @@ def test_a_hung_worker_is_stopped_and_said(tmp_path):
     w = client.Worker({"python": sys.executable, "path": [str(tmp_path)]}, "#SF!", call_timeout=1.0)
     text = w.call("SF_INVERSE", ["1/s"], {})
     assert "no answer within 1 s" in text and w.proc is None
+
+
+# ---------------------------------------------------------------- the command's errors
+def test_install_without_libreoffice_is_a_clear_error(monkeypatch, tmp_path, capsys):
+    from sheetfuncs import cli
+    from sheetfuncs.calcext import install
+    monkeypatch.setattr(install, "program_dir", lambda: None)
+    assert cli.main(["libreoffice", "install", "--profile", str(tmp_path / "p")]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: LibreOffice not found") and "libreoffice-calc-nogui" in err
+
+
+def test_install_without_unopkg_is_a_clear_error(monkeypatch, tmp_path, capsys):
+    from sheetfuncs import cli
+    from sheetfuncs.calcext import install
+    (tmp_path / "soffice").write_text("")
+    monkeypatch.setattr(install, "program_dir", lambda: tmp_path)
+    monkeypatch.setattr(install.shutil, "which", lambda name: None)
+    monkeypatch.setattr(install, "_as_root", lambda: False)          # the unopkg route
+    assert cli.main(["libreoffice", "remove", "--profile", str(tmp_path / "p")]) == 2
+    assert "unopkg not found next to soffice" in capsys.readouterr().err
+
+
+def test_libreoffice_command_form():
+    from sheetfuncs import cli
+    args = cli.build_parser().parse_args(["libreoffice", "install", "--profile", "/x"])
+    assert (args.command, args.action, args.profile) == ("libreoffice", "install", "/x")
+    assert cli.main(["libreoffice", "upgrade"]) == 2

@@ -54,12 +54,25 @@ def program_dir() -> Path | None:
     return None
 
 
-def unopkg_path() -> str:
+def _require_office() -> None:
+    """LibreOfficeMissing unless soffice is found (and unopkg, where it is what does the work)."""
+    if _as_root():
+        _office_dir()
+    else:
+        unopkg_path()
+
+
+def _office_dir() -> Path:
     prog = program_dir()
     if prog is None:
         raise LibreOfficeMissing("LibreOffice not found (install it, e.g. Debian/Ubuntu: "
                                  "apt-get install libreoffice-calc-nogui python3-uno; or set SOFFICE "
                                  "to the path of soffice)")
+    return prog
+
+
+def unopkg_path() -> str:
+    prog = _office_dir()
     for name in ("unopkg", "unopkg.com", "unopkg.exe"):
         if (prog / name).is_file():
             return str(prog / name)
@@ -170,7 +183,8 @@ def _unopkg(args: list[str], profile) -> subprocess.CompletedProcess:
 
 
 def installed(profile=None) -> bool:
-    if _as_root() and profile is not None:
+    _require_office()
+    if _as_root():                                  # (a profile folder is required there)
         return EXTENSION_ID in _through_office("list", profile)["identifiers"]
     res = _unopkg(["list", EXTENSION_ID], profile)
     return res.returncode == 0 and EXTENSION_ID in res.stdout
@@ -178,7 +192,7 @@ def installed(profile=None) -> bool:
 
 def install(profile=None, *, python: str | None = None, pythonpath: list[str] | None = None) -> str:
     """Build the extension for this Python and add it; returns a one-line summary."""
-    unopkg_path()                                   # say early when LibreOffice is missing
+    _require_office()                               # say early when LibreOffice is missing
     with tempfile.TemporaryDirectory(prefix="sf-oxt-") as tmp:
         oxt = build(Path(tmp) / "sheetfuncs.oxt", python=python, pythonpath=pythonpath)
         if _as_root():
