@@ -178,6 +178,12 @@ def test_worker_unavailable_is_said_in_the_cell(tmp_path):
         assert cells[(1, 0)]["value"] == 2.0
     finally:
         office.close()
+    # and the command takes it out again
+    res = _cli("libreoffice", "remove", "--profile", str(profile))
+    assert res.returncode == 0 and "removed" in res.stdout, res.stderr
+    assert not install.installed(profile)
+    res = _cli("libreoffice", "remove", "--profile", str(profile))
+    assert res.returncode == 2 and "not installed" in res.stderr
 
 
 def test_defined_names_are_parameters_as_in_fill(office):
