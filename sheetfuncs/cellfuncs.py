@@ -16,7 +16,9 @@ from __future__ import annotations
 
 import contextlib
 import contextvars
+import dataclasses
 import functools
+import inspect
 import math
 import re
 from typing import Callable
@@ -72,18 +74,99 @@ class _Empty(Exception):
     pass
 
 
+#: the most characters a cell holds (Excel's limit; fill, xlwings and LibreOffice results keep to it)
+CELL_TEXT_LIMIT = 32_767
+
+
+def cap_text(text: str) -> str:
+    """The text itself, or a clear message when it is longer than a cell holds."""
+    if len(text) <= CELL_TEXT_LIMIT:
+        return text
+    return (f"{ERROR_MARK} the result has {len(text):,} characters, more than the {CELL_TEXT_LIMIT:,} "
+            f"a cell holds (fewer digits or parameter values as numbers may shorten it)")
+
+
+def _capped(value):
+    if isinstance(value, str):
+        return cap_text(value)
+    if isinstance(value, list):
+        return [[cap_text(c) if isinstance(c, str) else c for c in row] if isinstance(row, list) else row
+                for row in value]
+    return value
+
+
 def cell(func: Callable) -> Callable:
-    """Turn errors into cell text and empty input into an empty result."""
+    """Turn errors into cell text, empty input into an empty result, and cap long texts."""
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         try:
-            return func(*args, **kwargs)
+            return _capped(func(*args, **kwargs))
         except _Empty:
             return ""
         except Exception as exc:  # noqa: BLE001 - a cell shows every failure as text
             return error_text(exc)
     wrapper.plain = func
     return wrapper
+
+
+# ---------------------------------------------------------------- metadata
+# One place for what the adapters show about a function (xlwings wrappers, the VBA-name
+# check, the LibreOffice extension's IDL and CalcAddIns.xcu): the signature, and the docstring
+# in this form: first line a one-line description, then a Google-style ``Args:`` section with
+# one ``name: description`` line per argument (``name (range): ...`` for an argument that
+# takes a range of cells).
+@dataclasses.dataclass(frozen=True)
+class ArgInfo:
+    name: str
+    description: str
+    is_range: bool
+    required: bool
+
+
+@dataclasses.dataclass(frozen=True)
+class FunctionInfo:
+    name: str            # cell name, e.g. SF_INVERSE
+    summary: str         # the docstring's first line
+    args: tuple          # of ArgInfo, in signature order
+
+
+_ARG_LINE = re.compile(r"^\s+([A-Za-z_][A-Za-z0-9_]*)\s*(?:\(([^)]*)\))?\s*:\s*(.*\S)\s*$")
+
+
+def describe(name: str, func: Callable | None = None) -> FunctionInfo:
+    """Metadata of one cell function from its signature and docstring (missing text stays empty)."""
+    func = func if func is not None else FUNCTIONS[name]
+    doc = inspect.getdoc(func) or ""
+    lines = doc.splitlines()
+    summary = lines[0].strip() if lines else ""
+    described: dict[str, tuple[str, bool]] = {}
+    in_args = False
+    for line in lines[1:]:
+        if line.strip() == "Args:":
+            in_args = True
+            continue
+        if in_args:
+            m = _ARG_LINE.match(line)
+            if m:
+                described[m.group(1)] = (m.group(3), "range" in (m.group(2) or "").lower())
+            elif line.strip() and not line.startswith(" "):
+                in_args = False                      # the next section
+            elif line.strip() and described:       # a continuation line
+                last = list(described)[-1]
+                text, rng = described[last]
+                described[last] = (f"{text} {line.strip()}", rng)
+    args = []
+    for p in inspect.signature(func).parameters.values():
+        if p.kind not in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD):
+            continue
+        text, rng = described.get(p.name, ("", False))
+        args.append(ArgInfo(p.name, text, rng, p.default is p.empty))
+    return FunctionInfo(name, summary, tuple(args))
+
+
+def catalogue() -> list[FunctionInfo]:
+    """Metadata of every function in FUNCTIONS, in their order."""
+    return [describe(n, f) for n, f in FUNCTIONS.items()]
 
 
 # ---------------------------------------------------------------- converters
@@ -263,13 +346,42 @@ def _vector(value, what) -> list[float]:
     return out
 
 
+#: what the per-cell form of a table gives past the table's end: it shows as nothing, and is
+#: not the empty text that LibreOffice 7.4 recomputes on load (#NAME? without the extension)
+PAST_TABLE = "\u00a0"      # a no-break space (an XML reader keeps it; a plain space is dropped)
+
+
+def _pick(rows, row, col):
+    """The whole table, or its one cell at (row, col), 1-based; PAST_TABLE past its end.
+
+    The per-cell form lets a workbook hold a table as one formula per cell, which every
+    spreadsheet program recomputes in place (no spill range, no stale neighbours)."""
+    if (row is None or row == "") and (col is None or col == ""):
+        return rows
+    r = _number(row, "row", integer=True)
+    c = _number(col, "col", integer=True)
+    if r < 1 or c < 1:
+        raise ParameterError(f"row and col count from 1, got {r}, {c}")
+    if r > len(rows) or c > len(rows[r - 1]):
+        return PAST_TABLE
+    value = rows[r - 1][c - 1]
+    return PAST_TABLE if value == "" or value is None else value
+
+
 # ---------------------------------------------------------------- functions
 FORMS = ("text", "sympy", "latex")
 
 
 @cell
 def inverse(expr, params=None, form=None, digits=None):
-    """f(t) of F(s): 'text' (default), 'sympy' or 'latex'."""
+    """f(t) for t >= 0 of F(s), as display text, SymPy text or LaTeX.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        form: output form: text (default), sympy or latex
+        digits: significant digits of the numbers (empty: full precision)
+    """
     from .printing import to_display, to_latex, to_sympy_text
     res = api.invert(_expr(expr), params_of(params))
     form = _text(form, "text").lower()
@@ -291,7 +403,14 @@ def inverse(expr, params=None, form=None, digits=None):
 
 @cell
 def sheet_formula(expr, tref=None, params=None, digits=None):
-    """A native spreadsheet formula of f(t) in terms of the cell ``tref`` (text)."""
+    """A native spreadsheet formula of f(t) in terms of the time in cell tref.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        tref: address of the time cell as text, e.g. "A7" (default A1)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        digits: significant digits of the constants (default 15)
+    """
     res = api.invert(_expr(expr), params_of(params))
     ref = _text(tref, "A1")
     return api.excel_formula(res, ref, digits=_number(digits, "digits", 15, integer=True))
@@ -308,10 +427,19 @@ PARTFRAC_HEADS = ["term in s", "f(t) term, t >= 0", "kind", "pole", "power", "co
 
 
 @cell
-def partfrac_table(expr, params=None, digits=None):
-    """One row per piece: term in s, its f(t) term, kind (polynomial part, real pole, complex
-    pair), pole, power, coefficient (header first).  A complex pair is one row, given by its
-    pole with Im > 0; poles and coefficients are numbers, or complex text such as -1+2i."""
+def partfrac_table(expr, params=None, digits=None, row=None, col=None):
+    """Partial fractions, one row per piece: term in s, f(t) term, kind, pole, power, coefficient.
+
+    A complex pair is one row, given by its pole with Im > 0; poles and coefficients are
+    numbers, or complex text such as -1+2i (header row first).
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        digits: significant digits of the numbers (empty: full precision)
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
+    """
     from .printing import to_display
     nd = _number(digits, "digits", 0, integer=True) or None
     res = api.invert(_expr(expr), params_of(params))
@@ -323,7 +451,7 @@ def partfrac_table(expr, params=None, digits=None):
         rows.append([to_display(r.s_term, digits=nd or 6), to_display(r.t_term, digits=nd or 6), r.kind,
                      None if r.pole is None else report.cell_number(pair(r.pole), nd), r.power,
                      report.cell_number(pair(r.coefficient), nd)])
-    return rows
+    return _pick(rows, row, col)
 
 
 POLES_HEADS = ["mode", "behaviour", "sigma = Re p [1/s]", "omega_d = |Im p| [rad/s]", "damping ratio",
@@ -332,10 +460,20 @@ POLES_HEADS = ["mode", "behaviour", "sigma = Re p [1/s]", "omega_d = |Im p| [rad
 
 
 @cell
-def poles_table(expr, params=None, digits=None):
-    """One row per mode (a real pole or a complex pair sigma +- j omega_d), slowest first:
-    behaviour, sigma, omega_d, damping ratio, natural frequency, period, time constant, time for
-    the envelope to fall to 2 %, number of poles; then the zeros; last row the stability."""
+def poles_table(expr, params=None, digits=None, row=None, col=None):
+    """Modes of F(s), slowest first: behaviour, sigma, omega_d, damping, frequencies, decay.
+
+    One row per mode (a real pole or a complex pair sigma +- j omega_d): behaviour, sigma,
+    omega_d, damping ratio, natural frequency, period, time constant, time for the envelope to
+    fall to 2 %, number of poles; then the zeros; last row the stability verdict.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        digits: significant digits of the numbers (empty: full precision)
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
+    """
     nd = _number(digits, "digits", 0, integer=True) or None
     f = api.figures(_expr(expr), params_of(params), input="impulse")
     rows = [list(POLES_HEADS)]
@@ -350,11 +488,17 @@ def poles_table(expr, params=None, digits=None):
                      None, None, None, None, None, n * (2 if b else 1)])
     verdict, _, why = f.stability.partition(" (")
     rows.append(["stability", verdict, why.rstrip(")") or None] + [None] * 7)
-    return rows
+    return _pick(rows, row, col)
 
 
 @cell
 def stability(expr, params=None):
+    """Stability verdict of F(s) from its poles.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     return api.figures(_expr(expr), params_of(params), input="impulse").stability
 
 
@@ -366,10 +510,17 @@ def _response_result(expr: str, input, params: dict):
 
 
 @cell
-def response(expr, t, input=None, params=None):
-    """y(t) of the response to input (impulse, step, ramp or U(s)) at one time t."""
+def response(expr, t, excitation=None, params=None):
+    """Response y(t) of F(s) to an input signal at one time t.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        t: the time (a number, t >= 0 for a causal response)
+        excitation: input signal: impulse, step, ramp or U(s) as text (default impulse)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     from .engine.sample import sample_result
-    res = _response_result(_expr(expr), _input(input), params_of(params))
+    res = _response_result(_expr(expr), _input(excitation), params_of(params))
     tt = _number(t, "t")
     y = float(sample_result(res, np.array([tt])).y[0])
     if not math.isfinite(y):
@@ -378,22 +529,33 @@ def response(expr, t, input=None, params=None):
 
 
 @cell
-def response_table(expr, times, stop=None, n=None, input=None, params=None):
-    """Rows t, y: over ``times`` (a column of times) or from start ``times`` to ``stop`` in ``n`` points."""
+def response_table(expr, times, t_end=None, n=None, excitation=None, params=None, row=None, col=None):
+    """Table of t and y: over a column of times, or from a start time to t_end in n points.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        times (range): a column of times, or one start time
+        t_end: last time, when times is one start time
+        n: number of points from start to t_end (default 101)
+        excitation: input signal: impulse, step, ramp or U(s) as text (default impulse)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
+    """
     from .engine.sample import sample_result, time_grid
     e = _expr(expr)
     if isinstance(times, (list, tuple)) and len(_vector(times, "times")) > 1:
         grid = time_grid([_number(x, "a time") for x in _vector(times, "times")])
     else:
         start = _number(times, "start time")
-        grid = time_grid(None, start, _number(stop, "stop time"), _number(n, "number of points", 101, integer=True))
+        grid = time_grid(None, start, _number(t_end, "end time t_end"), _number(n, "number of points", 101, integer=True))
     if grid.size > MAX_TABLE_ROWS:
         raise SamplingError(f"{grid.size} rows is above the limit of {MAX_TABLE_ROWS}")
-    res = _response_result(e, _input(input), params_of(params))
+    res = _response_result(e, _input(excitation), params_of(params))
     out = sample_result(res, grid)
-    rows = [["t [s]", f"y, {report.input_words(_input(input))}"]]
+    rows = [["t [s]", f"y, {report.input_words(_input(excitation))}"]]
     rows += [[float(a), float(b) if math.isfinite(b) else None] for a, b in zip(out.t, out.y)]
-    return rows
+    return _pick(rows, row, col)
 
 
 FIGURE_NAMES = {
@@ -437,10 +599,20 @@ def _missing_reason(f, attr) -> str:
 
 
 @cell
-def figure(expr, which, input=None, params=None, band=None):
-    """One response figure by name (final value, overshoot, settling time ..., or damping ratio,
-    natural frequency, damped frequency, time constant, decay time of the slowest mode); a unit
-    in brackets converts it: 'settling time [ms]', 'final value [mV]', 'natural frequency [Hz]'."""
+def figure(expr, which, excitation=None, params=None, band=None):
+    """One response figure by name: final value, overshoot, rise, peak or settling time ...
+
+    Also damping ratio, natural frequency, damped frequency, time constant and decay time of
+    the slowest mode; a unit in brackets converts the figure: 'settling time [ms]',
+    'final value [mV]', 'natural frequency [Hz]'.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        which: name of the figure, e.g. "overshoot", "settling time [ms]", "final value"
+        excitation: input signal: impulse, step, ramp or U(s) as text (default step)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        band: settling band as a fraction of the final value (default 0.02)
+    """
     m = _WHICH.fullmatch(_text(which, ""))
     key = (m.group(1) if m else _text(which, "")).lower().replace("_", " ")
     unit = m.group(2).strip() if m and m.group(2) and m.group(2).strip() else None
@@ -449,7 +621,7 @@ def figure(expr, which, input=None, params=None, band=None):
     attr = FIGURE_NAMES[key]
     if unit is not None and attr not in FIGURE_KINDS:
         raise ParameterError(f"the figure '{key}' takes no unit")
-    f = _figures(expr, input, params, band)
+    f = _figures(expr, excitation, params, band)
     if attr.startswith("mode."):
         ms = report.modes(f.poles)
         if not ms:
@@ -476,11 +648,21 @@ _BLOCK = [("DC gain", "dc_gain", ""), ("initial value", "initial_value", ""),
 
 
 @cell
-def figures_block(expr, input=None, params=None, band=None):
-    """Header row (which response), then one row per figure: label, value, unit, note; the last
-    row is the stability verdict with its reason.  A figure that does not exist is an empty
-    value with the reason as its note."""
-    f = _figures(expr, input, params, band)
+def figures_block(expr, excitation=None, params=None, band=None, row=None, col=None):
+    """Block of the response figures: label, value, unit, note; stability last.
+
+    A header row names the response; a figure that does not exist has an empty value and
+    the reason as its note.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        excitation: input signal: impulse, step, ramp or U(s) as text (default step)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        band: settling band as a fraction of the final value (default 0.02)
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
+    """
+    f = _figures(expr, excitation, params, band)
     lo, hi = f.rise_band
     rows = [[report.input_words(f.input), "value", "unit", "note"]]
     for label, attr, unit in _BLOCK:
@@ -491,7 +673,7 @@ def figures_block(expr, input=None, params=None, band=None):
                      unit or None, _missing_reason(f, attr) if v is None else None])
     verdict, _, why = f.stability.partition(" (")
     rows.append(["stability", verdict, None, why.rstrip(")") or None])
-    return rows
+    return _pick(rows, row, col)
 
 
 def _ode(coeffs, initial, input_s, params):
@@ -511,7 +693,15 @@ ODE_PARTS = {"y": "y", "y(t)": "y", "y(s)": "Y", "free": "free", "forced": "forc
 
 @cell
 def ode(coeffs, initial=None, input_s=None, params=None, part=None):
-    """Y(s) or y(t) (or its free / forced part) of a_n y^(n) + ... + a_0 y = u(t)."""
+    """y(t), Y(s), or the free or forced part of a_n y^(n) + ... + a_0 y = u(t).
+
+    Args:
+        coeffs (range): coefficients a_n ... a_0, highest derivative first
+        initial (range): initial values y(0), y'(0), ... (empty: all zero)
+        input_s: U(s), the transform of the forcing u(t), as text (empty: no forcing)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+        part: y(t) (default), Y(s), free or forced
+    """
     from .printing import to_display
     key = _text(part, "y(t)").lower()
     if key not in ODE_PARTS:
@@ -526,7 +716,15 @@ def ode(coeffs, initial=None, input_s=None, params=None, part=None):
 
 @cell
 def ode_at(coeffs, initial, t, input_s=None, params=None):
-    """y(t) of the ODE solution at one time."""
+    """y(t) of the solution of a_n y^(n) + ... + a_0 y = u(t) at one time t.
+
+    Args:
+        coeffs (range): coefficients a_n ... a_0, highest derivative first
+        initial (range): initial values y(0), y'(0), ... (empty: all zero)
+        t: the time (a number)
+        input_s: U(s), the transform of the forcing u(t), as text (empty: no forcing)
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     from .engine.sample import sample_result
     sol = _ode(coeffs, initial, input_s, params)
     return float(sample_result(sol.y, np.array([_number(t, "t")])).y[0])
@@ -534,13 +732,23 @@ def ode_at(coeffs, initial, t, input_s=None, params=None):
 
 @cell
 def transform(signal, params=None):
-    """F(s) of a time signal such as 'exp(-2t) sin(3t)' or 'u(t) - u(t-1)'."""
+    """F(s) of a time signal such as exp(-2t) sin(3t) or u(t) - u(t-1).
+
+    Args:
+        signal: f(t) as text, or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     return api.s_text(api.transform(_expr(signal, "signal"), params_of(params)))
 
 
 @cell
 def self_check(expr, params=None):
-    """Largest deviation of the closed form from a numerical inversion."""
+    """Largest deviation of the closed-form f(t) from an independent numerical inversion.
+
+    Args:
+        expr: F(s) as text, e.g. "(s+3)/(s^2+2s+5)", or a cell holding it
+        params (range): two-column range of parameter names and values (blank rows skipped)
+    """
     res = api.invert(_expr(expr), params_of(params))
     if res.f_t is None:
         raise UnsupportedExpressionError("a numerical result has nothing to check against")

@@ -1,14 +1,28 @@
 """Cell functions for Excel through xlwings (the only module importing xlwings).
 
-Each function converts nothing itself: it hands the cell values to the plain
-function of the same name in ``cellfuncs`` and returns what that gives
-(a number, a text or an array that spills).  The hidden ``caller`` argument
-(xlwings passes the calling range on Windows) gives access to the workbook's
-defined names, used as parameter values.  Off Windows xlwings' decorators
-pass through, so these functions are callable anywhere with Excel-shaped
-values (floats, None, 2-D lists).
+The wrappers are generated from ``cellfuncs.FUNCTIONS`` and each function's
+signature and docstring (``cellfuncs.describe``): same names and arguments,
+the docstring's first line as the function wizard's description and the
+``Args:`` lines as the argument descriptions, ``ndim=2`` for arguments that
+take ranges.  A function added to ``cellfuncs`` is here after a restart of
+the UDF server and *Import Functions*.
 
-Set-up in Excel: docs/excel.md.
+- ``call_in_wizard=False``: nothing heavy runs while a formula is typed.
+- ``err_to_str=True`` on every argument: an error value in an input cell
+  (``#N/A``, ``#VALUE!`` ...) arrives as its text and the cell answers
+  ``#SF! input error ...`` instead of computing with an empty value.
+- Parameters: pass the parameter range (name/value columns) as ``params``;
+  then Excel sees the dependency and recomputes when a value changes.  Defined
+  names of the workbook are read too (through xlwings' hidden ``caller``), as
+  ``fill`` reads them: workbook-level names of one cell holding a number; a
+  cell that uses such a name without its range needs a full recalculation
+  (Ctrl+Alt+F9) after the value changes.
+- Texts longer than the 32,767 characters a cell holds become a clear
+  ``#SF!`` message (in ``cellfuncs``).
+
+Off Windows xlwings' decorators pass through, so these functions are callable
+anywhere with Excel-shaped values (floats, None, 2-D lists).  Set-up in
+Excel: docs/excel.md.
 """
 from __future__ import annotations
 
@@ -31,126 +45,88 @@ except ImportError:  # pragma: no cover - the [excel] extra is not installed
             return lambda g: g
     xw = _Passthrough()
 
+CATEGORY = "sheetfuncs"
+
+#: what Excel passes for an error value in a cell when the argument has err_to_str
+EXCEL_ERRORS = frozenset({"#N/A", "#VALUE!", "#REF!", "#DIV/0!", "#NUM!", "#NAME?", "#NULL!",
+                          "#SPILL!", "#CALC!", "#GETTING_DATA", "#FIELD!", "#BLOCKED!", "#CONNECT!",
+                          "#BUSY!", "#UNKNOWN!"})
+
+# names the fill planner keeps for itself (one place: workbook.refs)
+_RESERVED_NAME_PREFIXES = ("_sfspill", "_xlnm")
+
 
 def _book_names(caller) -> dict:
-    """Numeric single-cell defined names of the calling workbook."""
+    """Workbook-level defined names of one cell holding a number (as ``fill`` reads them)."""
     if caller is None:
         return {}
     out = {}
     try:
         for name in caller.sheet.book.names:
             try:
+                full = name.name
+                if "!" in full or full.lower().startswith(_RESERVED_NAME_PREFIXES):
+                    continue                        # sheet-level names are not parameters in fill
                 rng = name.refers_to_range
+                if rng.count != 1:
+                    continue
                 value = rng.value
             except Exception:  # noqa: BLE001 - names to constants, #REF! ...
                 continue
             if isinstance(value, (int, float)) and not isinstance(value, bool):
-                out[name.name.split("!")[-1]] = value
+                out[full] = value
     except Exception:  # noqa: BLE001 - no book access: just no names
         return {}
     return out
 
 
-def _call(plain, caller, *args):
+def _input_error(names, args):
+    for name, value in zip(names, args):
+        cells = value if isinstance(value, (list, tuple)) else [value]
+        for row in cells:
+            for c in (row if isinstance(row, (list, tuple)) else [row]):
+                if isinstance(c, str) and c.strip() in EXCEL_ERRORS:
+                    return f"{_cf.ERROR_MARK} input error: {c.strip()} in argument {name}"
+    return None
+
+
+def _call(plain, names, caller, *args):
+    bad = _input_error(names, args)
+    if bad:
+        return bad
     with _cf.name_values(_book_names(caller)):
         return plain(*args)
 
 
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_INVERSE(expr, params=None, form=None, digits=None, caller=None):
-    """f(t) for t >= 0 of F(s): form 'text' (default), 'sympy' or 'latex'."""
-    return _call(_cf.inverse, caller, expr, params, form, digits)
+def wrapper(info, *, with_caller: bool = True, decorators=None):
+    """An xlwings function with the cell function's exact argument list.
 
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_SHEETFORMULA(expr, tref=None, params=None, digits=None, caller=None):
-    """A native spreadsheet formula of f(t) using the cell named in tref (text, e.g. "A5")."""
-    return _call(_cf.sheet_formula, caller, expr, tref, params, digits)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_PARTFRAC(expr, params=None, digits=None, caller=None):
-    """Partial-fraction table: pole, order, coefficient, real-form term, time term."""
-    return _call(_cf.partfrac_table, caller, expr, params, digits)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_POLES(expr, params=None, digits=None, caller=None):
-    """Poles and zeros with damping ratio, natural frequency, time constant; stability."""
-    return _call(_cf.poles_table, caller, expr, params, digits)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_STABILITY(expr, params=None, caller=None):
-    """Stability verdict from the poles."""
-    return _call(_cf.stability, caller, expr, params)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_RESPONSE(expr, t, input=None, params=None, caller=None):
-    """Response at one time t to input: impulse (default), step, ramp or U(s)."""
-    return _call(_cf.response, caller, expr, t, input, params)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("times", ndim=2)
-@xw.arg("params", ndim=2)
-def SF_RESPONSE_TABLE(expr, times, stop=None, n=None, input=None, params=None, caller=None):
-    """t and y columns: over a column of times, or from start to stop in n points."""
-    return _call(_cf.response_table, caller, expr, times, stop, n, input, params)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_FIGURE(expr, which, input=None, params=None, band=None, caller=None):
-    """One figure: final value, initial value, DC gain, rise/peak/settling time, peak value, overshoot."""
-    return _call(_cf.figure, caller, expr, which, input, params, band)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_FIGURES(expr, input=None, params=None, band=None, caller=None):
-    """Labelled two-column block of the response figures."""
-    return _call(_cf.figures_block, caller, expr, input, params, band)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("coeffs", ndim=2)
-@xw.arg("initial", ndim=2)
-@xw.arg("params", ndim=2)
-def SF_ODE(coeffs, initial=None, input_s=None, params=None, part=None, caller=None):
-    """y(t), Y(s), free or forced part of a_n y^(n) + ... + a_0 y = u(t)."""
-    return _call(_cf.ode, caller, coeffs, initial, input_s, params, part)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("coeffs", ndim=2)
-@xw.arg("initial", ndim=2)
-@xw.arg("params", ndim=2)
-def SF_ODE_AT(coeffs, initial, t, input_s=None, params=None, caller=None):
-    """y(t) of the ODE solution at one time t."""
-    return _call(_cf.ode_at, caller, coeffs, initial, t, input_s, params)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_TRANSFORM(signal, params=None, caller=None):
-    """F(s) of a time signal (t^n, exp, sin, cos, u(t - T), delta(t - T) ...)."""
-    return _call(_cf.transform, caller, signal, params)
-
-
-@xw.func(category="sheetfuncs")
-@xw.arg("params", ndim=2)
-def SF_SELFCHECK(expr, params=None, caller=None):
-    """Largest deviation of f(t) from an independent numerical inversion."""
-    return _call(_cf.self_check, caller, expr, params)
+    ``with_caller``: add xlwings' hidden ``caller`` (classic xlwings on Windows) for the
+    workbook's defined names; xlwings Lite has none (``sheetfuncs.lite``)."""
+    deco = decorators if decorators is not None else xw
+    args = [a.name for a in info.args]
+    if not all(a.isidentifier() for a in args) or not info.name.isidentifier():
+        raise ValueError(f"{info.name}: argument names must be identifiers")
+    sig = ", ".join(a.name if a.required else f"{a.name}=None" for a in info.args)
+    extra = ("caller=None", "caller") if with_caller else ("", "None")
+    params = ", ".join(p for p in (sig, extra[0]) if p)
+    src = (f"def {info.name}({params}):\n"
+           f"    return _call(_plain, _names, {extra[1]}, {', '.join(args)})\n")
+    scope = {"_call": _call, "_plain": _cf.FUNCTIONS[info.name], "_names": tuple(args)}
+    exec(compile(src, f"<sheetfuncs.cells {info.name}>", "exec"), scope)   # our own identifiers only
+    f = scope[info.name]
+    f.__doc__ = info.summary
+    f.__module__ = __name__
+    for a in reversed(info.args):
+        opts = {"doc": a.description, "err_to_str": True}
+        if a.is_range:
+            opts["ndim"] = 2
+        f = deco.arg(a.name, **opts)(f)
+    return deco.func(category=CATEGORY, call_in_wizard=False)(f)
 
 
 #: the exported cell functions, by name
-CELL_FUNCTIONS = {name: obj for name, obj in globals().items() if name.startswith(_cf.PREFIX)}
+CELL_FUNCTIONS = {}
+for _info in _cf.catalogue():
+    CELL_FUNCTIONS[_info.name] = globals()[_info.name] = wrapper(_info)
+del _info

@@ -132,6 +132,13 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--plant", required=True, metavar="G", help="plant G(s)")
     c.add_argument("--controller", metavar="C", default=None, help="controller C(s) (default 1)")
     c.add_argument("--sensor", metavar="H", default=None, help="sensor H(s) in the feedback path (default 1)")
+    c = sub.add_parser("libreoffice", help="add the SF_ functions to LibreOffice Calc, or take them out")
+    c.add_argument("action", choices=("install", "remove"),
+                   help="install (or update) the extension, or remove it")
+    c.add_argument("--profile", metavar="DIR", help="LibreOffice user profile folder "
+                   "(as in -env:UserInstallation=file://DIR; created if needed); default: the current user's")
+    c.add_argument("--json", action="store_true", help="print JSON")
+    c.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     return p
 
 
@@ -242,6 +249,10 @@ def _fail(message: str, want_json: bool) -> int:
 def _run(args):
     if args.command == "fill":
         return _fill(args)
+    if args.command == "libreoffice":
+        from .calcext import install as lo
+        text = lo.install(args.profile) if args.action == "install" else lo.remove(args.profile)
+        return {"result": text} if args.json else text
     if args.command == "demo":
         from .demo import run_demo
         result = run_demo(args.dir)

@@ -33,8 +33,8 @@ FILL_NOTE = ("Cells with SF_ formulas are computed by 'sheetfuncs fill BOOK.xlsx
              "(or live in Excel with the sheetfuncs add-in); native formulas compute themselves.")
 WIDTHS = {"A": 42, "B": 24, "C": 14, "D": 26, "E": 24, "F": 16, "G": 13, "H": 13, "I": 13, "J": 9}
 COLS = "ABCDEFGHIJ"                   # the printed width of the Calculation sheet
-TABLE_ROOM = (13, 10)                 # rows x columns kept empty for a spilling table
-BLOCK_ROOM = (11, 4)                  # ... and for an SF_FIGURES block
+TABLE_ROOM = (13, 10)                 # rows x columns of a table held one formula per cell
+BLOCK_ROOM = (11, 4)                  # ... and of an SF_FIGURES block
 SCI = "0.0E+00"                       # tiny deviations (self-check)
 ENG = "##0.00E+0"                     # engineering notation: exponent a multiple of 3 (424.63E-6)
 #: scientific formats of the builders shown in engineering notation instead
@@ -64,6 +64,40 @@ PARTFRAC_STYLE = {0: _WRAP, 1: _WRAP, 2: _TOP, 3: ("General", _RIGHT), 4: _CENTE
 BLOCK_STYLE = {1: ENG, 2: _CENTER}
 #: rows of a spilled table that get room for wrapped text (header, then data rows), in lines
 HEAD_LINES, BODY_LINES, BODY_TALL_ROWS = 2, 3, 4
+
+
+def _split_args(text: str) -> list[str]:
+    """Top-level comma-separated arguments of a formula's call (quotes and brackets kept)."""
+    out, depth, quote, cur = [], 0, False, ""
+    for ch in text:
+        if ch == '"':
+            quote = not quote
+        elif not quote and ch == "(":
+            depth += 1
+        elif not quote and ch == ")":
+            depth -= 1
+        elif not quote and depth == 0 and ch == ",":
+            out.append(cur)
+            cur = ""
+            continue
+        cur += ch
+    out.append(cur)
+    return [a.strip() for a in out] if text.strip() else []
+
+
+def cell_form(formula: str, row: int, col: int) -> str:
+    """'=SF_POLES(G,P)' -> '=SF_POLES(G,P,"",row,col)': the per-cell form of a table function."""
+    from .cellfuncs import describe
+    m = re.fullmatch(r"=(SF_[A-Z_]+)\((.*)\)", formula.strip(), re.S)
+    if not m:
+        raise ValueError(f"not a table function call: {formula}")
+    name, args = m.group(1), _split_args(m.group(2))
+    names = [a.name for a in describe(name).args]
+    at = names.index("row")
+    if len(args) > at:
+        raise ValueError(f"{formula}: arguments past row/col")
+    args += ['""'] * (at - len(args))
+    return f"={name}({','.join(args + [str(row), str(col)])})"
 
 
 def _abs(cell: str) -> str:
@@ -169,10 +203,16 @@ class _Calc:
 
     def spill(self, what: str, formula: str, *, col: str = "A", at: int | None = None,
               room: tuple = TABLE_ROOM, style: dict | None = None) -> int:
-        """An array formula's anchor and its empty room; returns the anchor row."""
+        """A table as one per-cell formula (row, col of the table) over its room; returns the top row.
+
+        The array form (one anchor that spills) stays for interactive use; a book holds the
+        per-cell form so that Excel shows no spill error, LibreOffice leaves no stale
+        neighbours, and a program without the functions shows the cached values."""
         r = self.row if at is None else at
         rows, cols = room
-        self.ws[f"{col}{r}"] = formula
+        for dr in range(rows):          # one formula per cell: recomputed in place by any program
+            for dc in range(cols):
+                self.ws.cell(row=r + dr, column=ord(col) - 64 + dc).value = cell_form(formula, dr + 1, dc + 1)
         for off in range(cols):                # header row: bold, over its column's alignment
             cell = self.ws.cell(row=r, column=ord(col) - 64 + off)
             cell.font = _BOLD
@@ -198,7 +238,7 @@ class _Calc:
         if at is None:
             self.row += rows
         end = chr(ord(col) + cols - 1)
-        self.note(what, f"{col}{r} (spills within {col}{r}:{end}{r + rows - 1})")
+        self.note(what, f"{col}{r}:{end}{r + rows - 1} (one cell of the table per formula)")
         return r
 
     def key_figures(self, title: str, block_title: str, block: str, specs) -> None:
@@ -384,6 +424,8 @@ def build_mount() -> tuple[Workbook, dict]:
     first = int(rng.split(":")[0][1:])
     coeffs, init = f"$B${first}:$B${first + 2}", f"$B${first + 3}:$B${first + 4}"
     c.note("inputs (defined names on the value cells)", rng)
+    # the inputs range is passed as well, so that spreadsheet programs see the dependency
+    P = ":".join(_abs(x) for x in rng.split(":"))
     c.note("coefficients mass, damp, stiff (highest derivative first)", coeffs.replace("$", ""))
     c.note("initial values xstart, vstart", init.replace("$", ""))
     c.section("Model")
@@ -395,27 +437,27 @@ def build_mount() -> tuple[Workbook, dict]:
     c.text("X(s) by the ODE route (SF_ODE part Y(s))", f'=SF_ODE({coeffs},{init},"","","Y(s)")',
            "X(s) by SF_ODE", height=16)
     c.text("x(t) [m] by the ODE route (SF_ODE)", f"=SF_ODE({coeffs},{init})", "x(t) by SF_ODE")
-    c.text("x(t) [m] from X(s) (SF_INVERSE)", f"=SF_INVERSE({X})", "x(t) text (SF_INVERSE)")
-    c.text("x(t) as a native formula of a time in cell A7", f'=SF_SHEETFORMULA({X},"A7")',
+    c.text("x(t) [m] from X(s) (SF_INVERSE)", f"=SF_INVERSE({X},{P})", "x(t) text (SF_INVERSE)")
+    c.text("x(t) as a native formula of a time in cell A7", f'=SF_SHEETFORMULA({X},"A7",{P})',
            "native formula text (SF_SHEETFORMULA)", height=45)
-    c.value("self-check (max deviation)", f"=SF_SELFCHECK({X})", "m", "0.0E+00", "self-check")
+    c.value("self-check (max deviation)", f"=SF_SELFCHECK({X},{P})", "m", "0.0E+00", "self-check")
     c.row += 1
     h, x = H.replace("$", ""), X.replace("$", "")
-    c.key_figures("Key figures", "Suddenly applied steady force (SF_FIGURES of H)", f'=SF_FIGURES({H},"step")', [
-        ("displacement at release (initial value)", f'=SF_FIGURE({X},"initial value","impulse")', "m",
+    c.key_figures("Key figures", "Suddenly applied steady force (SF_FIGURES of H)", f'=SF_FIGURES({H},"step",{P})', [
+        ("displacement at release (initial value)", f'=SF_FIGURE({X},"initial value","impulse",{P})', "m",
          "0.0000", {"expr": x, "params": None, "input": "impulse", "attr": "initial_value"}),
-        *_step_specs(H, "", [
+        *_step_specs(H, P, [
             ("static compliance 1/stiff (DC gain of H)", "dc gain", "dc_gain", "m/N", "0.000E+00"),
             ("overshoot under a suddenly applied force", "overshoot", "overshoot_percent", "%", "0.0"),
             ("settling time (2 %) under that force", "settling time", "settling_time", "s", "0.000")])])
     c.section("Poles of H(s): damping ratio in E, natural frequency in F (second data row)")
-    pr = c.spill("poles table (SF_POLES)", f"=SF_POLES({H})", style=POLES_STYLE)
+    pr = c.spill("poles table (SF_POLES)", f"=SF_POLES({H},{P})", style=POLES_STYLE)
     for col, label, attr, unit in (("E", "damping ratio (poles table)", "damping_ratio", ""),
                                    ("F", "natural frequency (poles table)", "natural_frequency", "rad/s")):
         c.figures.append({"sheet": "Calculation", "cell": f"{col}{pr + 1}", "label": label, "unit": unit,
                           "expr": h, "params": None, "input": "impulse", "attr": attr, "pole": 0})
     c.section("Partial fractions of X(s) (4 digits)")
-    c.spill("partial-fraction table (SF_PARTFRAC)", f'=SF_PARTFRAC({X},"",4)', style=PARTFRAC_STYLE)
+    c.spill("partial-fraction table (SF_PARTFRAC)", f'=SF_PARTFRAC({X},{P},4)', style=PARTFRAC_STYLE)
     _fit_page(c.ws)
     sampled = _response(wb, "Sampled response: mount displacement x(t)",
                      "t = start + k * step (k = 0 ... 200); x by SF_ODE_AT from the coefficient "
@@ -490,6 +532,8 @@ def build_slab() -> tuple[Workbook, dict]:
         ("alpha", 5.0e-7, "m^2/s", "thermal diffusivity of the slab", "0.00E+00"),
         ("dtemp", 30.0, "K", "temperature step applied to face x = 0", "0.0")], names=True)
     c.note("inputs (defined names on the value cells)", rng)
+    # the inputs range is passed as well, so that spreadsheet programs see the dependency
+    P = ":".join(_abs(x) for x in rng.split(":"))
     c.section("Model (Laplace domain, temperature rise at x = L)")
     A = c.text("slab, far face insulated (no closed form: Talbot inversion)",
                "dtemp/(s cosh(thick sqrt(s/alpha)))", "slab expression")
@@ -499,26 +543,26 @@ def build_slab() -> tuple[Workbook, dict]:
                "1/cosh(thick sqrt(s/alpha))", "slab transfer G(s)")
     c.row += 1
     c.section("Results")
-    c.text("slab: far-face rise f(t)", f"=SF_INVERSE({A})", "slab f(t) text (SF_INVERSE)", height=16)
-    c.text("semi-infinite: rise at depth L [K]", f"=SF_INVERSE({B})", "semi-infinite f(t) text", height=16)
-    c.text("semi-infinite as a native formula of a time in cell A7", f'=SF_SHEETFORMULA({B},"A7")',
+    c.text("slab: far-face rise f(t)", f"=SF_INVERSE({A},{P})", "slab f(t) text (SF_INVERSE)", height=16)
+    c.text("semi-infinite: rise at depth L [K]", f"=SF_INVERSE({B},{P})", "semi-infinite f(t) text", height=16)
+    c.text("semi-infinite as a native formula of a time in cell A7", f'=SF_SHEETFORMULA({B},"A7",{P})',
            "native formula text (SF_SHEETFORMULA)")
-    c.value("self-check of the erfc form", f"=SF_SELFCHECK({B})", "K", "0.0E+00", "self-check")
+    c.value("self-check of the erfc form", f"=SF_SELFCHECK({B},{P})", "K", "0.0E+00", "self-check")
     c.row += 1
     c.section("Key figures")
     T = _abs(c.value("time scale thick^2/alpha", "=thick^2/alpha", "s", "0", "time scale (native)"))
     a, b = A.replace("$", ""), B.replace("$", "")
-    c.figure("slab far-face rise at t = thick^2/alpha", f"=SF_RESPONSE({A},{T})", "K", "0.000",
+    c.figure("slab far-face rise at t = thick^2/alpha", f'=SF_RESPONSE({A},{T},"",{P})', "K", "0.000",
              expr=a, time_factor=1, kind="slab")
-    c.figure("semi-infinite estimate at t = thick^2/alpha", f"=SF_RESPONSE({B},{T})", "K", "0.000",
+    c.figure("semi-infinite estimate at t = thick^2/alpha", f'=SF_RESPONSE({B},{T},"",{P})', "K", "0.000",
              expr=b, time_factor=1, kind="semi")
-    c.figure("slab far-face rise at t = 4 thick^2/alpha", f"=SF_RESPONSE({A},4*{T})", "K", "0.000",
+    c.figure("slab far-face rise at t = 4 thick^2/alpha", f'=SF_RESPONSE({A},4*{T},"",{P})', "K", "0.000",
              expr=a, time_factor=4, kind="slab")
     g = G.replace("$", "")
-    c.figure("far face within 2 % of dtemp after (settling time)", f'=SF_FIGURE({G},"settling time","step")',
+    c.figure("far face within 2 % of dtemp after (settling time)", f'=SF_FIGURE({G},"settling time","step",{P})',
              "s", "0", expr=g, params=None, input="step", attr="settling_time", kind="slab_level",
              level=0.98)
-    c.figure("far face 10 % to 90 % of dtemp (rise time)", f'=SF_FIGURE({G},"rise time","step")',
+    c.figure("far face 10 % to 90 % of dtemp (rise time)", f'=SF_FIGURE({G},"rise time","step",{P})',
              "s", "0", expr=g, params=None, input="step", attr="rise_time")
     c.row += 1
     c.section("Slab modes: poles of 1/cosh(L sqrt(s/alpha)) at s_n = -(2n+1)^2 pi^2 alpha/(4 L^2)")
@@ -539,8 +583,8 @@ def build_slab() -> tuple[Workbook, dict]:
                      "t = start + k * step, step = 4 thick^2/alpha / 200; SF_RESPONSE (impulse of the "
                      "expressions = step response); column D is the spreadsheet's own ERFC as a check.",
                      0.0, "=4*thick^2/alpha/200",
-                     [("slab far face [K]", f"=SF_RESPONSE(Calculation!{A},{{t}})", "0.000000"),
-                      ("semi-infinite [K]", f"=SF_RESPONSE(Calculation!{B},{{t}})", "0.000000"),
+                     [("slab far face [K]", f'=SF_RESPONSE(Calculation!{A},{{t}},"",Calculation!{P})', "0.000000"),
+                      ("semi-infinite [K]", f'=SF_RESPONSE(Calculation!{B},{{t}},"",Calculation!{P})', "0.000000"),
                       ("ERFC check [K]", "=IF({t}<=0,0,dtemp*ERFC(thick/(2*SQRT(alpha*{t}))))", "0.000000")])
     _chart(wb, "Temperature rise at depth L (far face)", "time t [s]", "temperature rise [K]",
            [("B", "slab, far face insulated"), ("C", "semi-infinite solid")], sampled[0])

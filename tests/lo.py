@@ -261,3 +261,25 @@ if __name__ == "__main__":  # manual check: python -m tests.lo FILE.xlsx
         print(f"--- {name}")
         for row in rows:
             print(row)
+
+
+# ---------------------------------------------------------------- live LibreOffice (python3-uno)
+
+def require_office_python() -> str:
+    """LibreOffice's Python with pyuno (python3-uno); skip/fail like require_soffice."""
+    import pytest
+    from sheetfuncs.calcext.install import office_python
+
+    require_soffice()
+    path = office_python()
+    if path is None:
+        if _on_ci():
+            pytest.fail("LibreOffice's Python with pyuno (python3-uno) is required on CI")
+        pytest.skip("python3-uno not installed")
+    return path
+
+
+def OfficeSession(profile, log=None, timeout: float = 300):
+    """A live LibreOffice on ``profile`` (sheetfuncs.calcext.session); skip/fail when missing."""
+    from sheetfuncs.calcext.session import OfficeSession as _Session
+    return _Session(profile, python=require_office_python(), soffice=soffice_path(), log=log, timeout=timeout)

@@ -229,25 +229,28 @@ def test_cautions_near_the_top_and_names_excel_accepts(built):
             assert isinstance(wb[sheet][ref.replace("$", "")].value, (int, float))
 
 
-def test_spilling_tables_have_empty_room(built):
-    room = {"SF_PARTFRAC": (12, len(cellfuncs.PARTFRAC_HEADS)), "SF_POLES": (12, len(cellfuncs.POLES_HEADS)),
-            "SF_FIGURES": (10, 4), "SF_RESPONSE_TABLE": (12, 2)}
+def test_tables_are_one_formula_per_cell(built):
+    # a table is held as its per-cell form (row, col of the table in each cell), so that it is
+    # recomputed in place live (no spill range, no stale neighbours); its room holds every
+    # column of the layout
+    from sheetfuncs.templates import BLOCK_ROOM, TABLE_ROOM, cell_form
+    assert TABLE_ROOM[1] >= max(len(cellfuncs.PARTFRAC_HEADS), len(cellfuncs.POLES_HEADS))
+    room = {"SF_PARTFRAC": TABLE_ROOM, "SF_POLES": TABLE_ROOM, "SF_FIGURES": BLOCK_ROOM}
     seen = 0
     for p in built:
         wb = _load(p)
         for sheet, ref, f in _formulas(wb):
-            fn = re.match(r"=\s*(SF_[A-Z_]+)\(", str(f))
+            fn = re.match(r"=\s*(SF_[A-Z_]+)\((.*),1,1\)$", str(f))
             if not fn or fn.group(1) not in room:
                 continue
             ws, (r0, c0) = wb[sheet], _rc(ref)
+            array_form = f"={fn.group(1)}({fn.group(2)})".replace(',""', "")
             rows, cols = room[fn.group(1)]
             merged = {cell for m in ws.merged_cells.ranges for cell in m.cells}
             for r in range(r0, r0 + rows):
                 for c in range(c0, c0 + cols):
-                    if (r, c) == (r0, c0):
-                        continue
-                    assert ws.cell(r, c).value is None, f"{p.name} {sheet}: {ref} spills onto row {r} col {c}"
-                    assert (r, c) not in merged, f"{p.name} {sheet}: {ref} spills into merged cells"
+                    assert ws.cell(r, c).value == cell_form(array_form, r - r0 + 1, c - c0 + 1), (p.name, r, c)
+                    assert (r, c) not in merged, f"{p.name} {sheet}: {ref} table over merged cells"
             seen += 1
     assert seen == 8            # 3 + 3 + 2 + 0 tables and blocks
 
