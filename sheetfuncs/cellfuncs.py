@@ -836,7 +836,8 @@ def phase_deg(expr, w, params=None, unit=None):
 
 
 @cell
-def frequency_table(expr, w_from, w_to=None, points=None, params=None, unit=None):
+def frequency_table(expr, w_from, w_to=None, points=None, params=None, unit=None, row=None,
+                    col=None):
     """Rows of frequency, |F|, |F| in dB, phase (deg), group delay (s), header first: over a column of frequencies or a log grid.
 
     Args:
@@ -846,6 +847,8 @@ def frequency_table(expr, w_from, w_to=None, points=None, params=None, unit=None
         points: number of grid points (default 101).
         params: two-column range of parameter names and values (optional).
         unit: 'rad/s' (default) or 'Hz', for the frequencies given and shown.
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     from .engine import frequency
     e = _expr(expr)
@@ -863,7 +866,7 @@ def frequency_table(expr, w_from, w_to=None, points=None, params=None, unit=None
     rows = [[head, "|F|", "|F| (dB)", "phase (deg)", "group delay (s)"]]
     for r in zip(w / k, mag, db, ph, gd):
         rows.append([float(x) if math.isfinite(x) else "" for x in r])
-    return rows
+    return _pick(rows, row, col)
 
 
 #: name typed in a cell -> (attribute of FrequencyFigures or a section figure, is a frequency)
@@ -921,21 +924,23 @@ def frequency_figure(expr, which, params=None, unit=None):
 
 
 @cell
-def frequency_figures(expr, params=None, unit=None):
+def frequency_figures(expr, params=None, unit=None, row=None, col=None):
     """A labelled two-column block of the frequency figures (empty value where a figure does not exist).
 
     Args:
         expr: F(s) as text.
         params: two-column range of parameter names and values (optional).
         unit: 'rad/s' (default) or 'Hz', for figures that are frequencies.
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     k = _unit(unit)
     f = _frequency_figures(expr, params)
     rows = []
     for label, key in _FREQUENCY_LABELS:
         v = _frequency_figure_value(f, key, k)
-        rows.append([label, "" if v is None else float(v)])
-    return rows
+        rows.append([label, None if v is None else float(v)])
+    return _pick(rows, row, col)
 
 
 LOOP_FIGURES = {
@@ -993,13 +998,15 @@ def loop_figure(expr, which, params=None, unit=None):
 
 
 @cell
-def loop_figures(expr, params=None, unit=None):
+def loop_figures(expr, params=None, unit=None, row=None, col=None):
     """A labelled two-column block of the loop figures of an open loop L(s).
 
     Args:
         expr: the open loop L(s) as text.
         params: two-column range of parameter names and values (optional).
         unit: 'rad/s' (default) or 'Hz', for the crossover frequencies.
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     k = _unit(unit)
     mg = _margins_cached(_expr(expr), params_of(params))
@@ -1007,7 +1014,7 @@ def loop_figures(expr, params=None, unit=None):
     for label, key in _LOOP_LABELS:
         v = _loop_value(mg, key, k)
         rows.append([label, "" if v is None else (float(v) if not isinstance(v, int) else v)])
-    return rows
+    return _pick(rows, row, col)
 
 
 @cache.memo
@@ -1044,7 +1051,7 @@ def close_loop(plant, controller=None, sensor=None, part=None, params=None):
 
 
 @cell
-def loop_warnings(plant, controller=None, sensor=None, params=None):
+def loop_warnings(plant, controller=None, sensor=None, params=None, row=None, col=None):
     """A one-column table (header first) of the exact cancellations and right-half-plane zeros of the loop.
 
     Args:
@@ -1052,12 +1059,15 @@ def loop_warnings(plant, controller=None, sensor=None, params=None):
         controller: the controller C(s) as text (default 1).
         sensor: the sensor H(s) in the feedback path (default 1).
         params: two-column range of parameter names and values (optional).
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     a = _loop_cached(_expr(plant, "plant"), _optional_expr(controller, "controller"),
                      _optional_expr(sensor, "sensor"), params_of(params))
     items = [f"cancellation: {c}" for c in a.cancellations] + [f"warning: {z}" for z in a.rhp_zeros]
     items += [f"note: {n}" for n in a.notes]
-    return [["loop checks"]] + [[x] for x in (items or ["no cancellation, no right-half-plane zero"])]
+    return _pick([["loop checks"]] + [[x] for x in (items or ["no cancellation, no right-half-plane zero"])],
+                 row, col)
 
 
 SHAPE_FIGURES = {
@@ -1099,11 +1109,11 @@ def shape_figure(expr, which, excitation=None, params=None, decay=None):
         raise ParameterError(f"unknown shape figure '{which}'; use one of: {', '.join(SHAPE_FIGURES)}")
     f = _shape(expr, excitation, params, decay)
     v = getattr(f, SHAPE_FIGURES[key])
-    return "" if v is None else float(v)
+    return f"none: no {key} for this response" if v is None else float(v)
 
 
 @cell
-def shape_figures(expr, excitation=None, params=None, decay=None):
+def shape_figures(expr, excitation=None, params=None, decay=None, row=None, col=None):
     """A labelled two-column block of the response-shape figures.
 
     Args:
@@ -1111,13 +1121,15 @@ def shape_figures(expr, excitation=None, params=None, decay=None):
         excitation: impulse (default: the expression is the response), step, ramp or U(s).
         params: two-column range of parameter names and values (optional).
         decay: the level of the decay time in % of the largest deviation from the final value (default 5).
+        row: row of the table to give alone, 1 = the header (empty: the whole table)
+        col: column of the table to give alone, 1 = the first (empty: the whole table)
     """
     f = _shape(expr, excitation, params, decay)
     rows = []
     for label, key in _SHAPE_LABELS:
         v = getattr(f, SHAPE_FIGURES[key])
-        rows.append([label, "" if v is None else float(v)])
-    return rows
+        rows.append([label, None if v is None else float(v)])
+    return _pick(rows, row, col)
 
 
 FUNCTIONS.update({

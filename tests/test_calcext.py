@@ -94,7 +94,7 @@ def test_worker_answers_like_the_cell_functions():
         y = w.call("SF_RESPONSE", ["1/(s+2)", 0.5, None, None], {})
         assert y == pytest.approx(math.exp(-1.0), rel=1e-12)
         rows = w.call("SF_POLES", ["1/(s+2)", None, None], {})
-        assert rows[0][0] == "kind" and rows[1][:2] == ["pole", -2.0]
+        assert rows[0][0] == "mode" and rows[1][0] == 1 and rows[1][2] == -2.0     # sigma of the mode
         # defined names reach the function as parameters (as fill passes them)
         assert w.call("SF_RESPONSE", ["1/(s+a)", 0.5, None, None], {"a": 2.0}) == pytest.approx(math.exp(-1.0))
         assert w.call("SF_INVERSE", ["1/(s+", None, None, None], {}).startswith(cellfuncs.ERROR_MARK)
