@@ -308,7 +308,7 @@ def _same_file(a: Path, b: Path) -> bool:
 
 
 #: measured peak memory of a fill per stored cell (openpyxl's cells, our snapshot, results):
-#: about 2.1 kB on the 10^4..10^6-row books of ``fillbench --faults``; with a margin
+#: about 2.1 kB on the 10^4..10^6-row books of ``sheetfuncs.benchmarks.fill --faults``; with a margin
 BYTES_PER_CELL = 2500
 
 

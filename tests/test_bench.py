@@ -9,7 +9,7 @@ import sympy as sp
 
 import sheetfuncs
 from sheetfuncs._types import S
-from sheetfuncs.bench import DEFAULT_CORPUS, read_corpus
+from sheetfuncs.benchmarks.engine import DEFAULT_CORPUS, read_corpus
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -19,7 +19,7 @@ def _run(*args, env_cache=None):
     env.pop("SHEETFUNCS_CACHE", None)
     if env_cache is not None:
         env["SHEETFUNCS_CACHE"] = env_cache
-    return subprocess.run([sys.executable, "-m", "sheetfuncs.bench", *args], cwd=ROOT, env=env,
+    return subprocess.run([sys.executable, "-m", "sheetfuncs.benchmarks.engine", *args], cwd=ROOT, env=env,
                           capture_output=True, text=True, timeout=300)
 
 
@@ -70,7 +70,7 @@ def test_corpus_covers_the_brief():
 
 
 def test_sampling_benchmark_runs(capsys):
-    from sheetfuncs import samplebench
+    from sheetfuncs.benchmarks import sampling as samplebench
     assert samplebench.main([]) == 0
     out = capsys.readouterr().out
     assert "engine ms" in out and len(out.strip().splitlines()) == 1 + len(samplebench.CASES)

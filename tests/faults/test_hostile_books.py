@@ -14,7 +14,7 @@ import pytest
 
 from sheetfuncs.errors import WorkbookError
 from sheetfuncs.fill import fill_workbook
-from sheetfuncs.fillbench import build_bomb, build_rows
+from sheetfuncs.benchmarks.fill import build_bomb, build_rows
 from tests.faults.compare import differences
 from tests.faults.conftest import build_book, run_cli, values
 

@@ -3,7 +3,7 @@
 exists, side by side with scipy.signal.freqs (complex value, then dB and
 np.unwrap of the angle) on the same system and grid.
 
-    python -m sheetfuncs.freqbench
+    python -m sheetfuncs.benchmarks.frequency
 
 Target: under 10 ms per 10^4 points.  Figures go in docs/benchmarks.md.
 """
@@ -38,7 +38,7 @@ def _best(fn, runs=20):
 def main(argv=None) -> int:
     from scipy import signal
 
-    from .engine import frequency
+    from ..engine import frequency
     w = np.geomspace(1e-2, 1e2, N)
     print(f"{N} frequencies, best of 20 runs")
     print(f"{'case':28s} {'model ms':>9s} {'engine ms':>10s} {'scipy ms':>9s} {'ratio':>7s} {'max |dB diff|':>14s}")

@@ -1,7 +1,7 @@
 """Benchmark of sampling: 10^5 points of a step response once the closed form
 exists, side by side with scipy.signal.step on the same system and grid.
 
-    python -m sheetfuncs.samplebench
+    python -m sheetfuncs.benchmarks.sampling
 
 Target: under 5 ms per 10^5 points (the core issue's figure).  Figures go in docs/benchmarks.md.
 """
@@ -31,7 +31,7 @@ def _best(fn, runs=5):
 def main(argv=None) -> int:
     from scipy import signal
 
-    from .engine.sample import response_result, sample_result
+    from ..engine.sample import response_result, sample_result
 
     def evaluate(res, grid):
         return sample_result(res, grid).y

@@ -1,6 +1,6 @@
 """Speed benchmark: ``sheetfuncs.invert`` against ``sympy.inverse_laplace_transform``.
 
-Run as ``python -m sheetfuncs.bench [--quick] [--limit SECONDS] [--json PATH]
+Run as ``python -m sheetfuncs.benchmarks.engine [--quick] [--limit SECONDS] [--json PATH]
 [--corpus PATH]``.  One process, caches off (``SHEETFUNCS_CACHE=off`` is set
 here if it was not, and SymPy's own cache is cleared before every timed call).
 
@@ -48,7 +48,7 @@ from sheetfuncs.engine import cache as _cache  # noqa: E402
 from sheetfuncs.engine.sample import numpy_function, sample_result  # noqa: E402
 from sheetfuncs.errors import SheetfuncsError  # noqa: E402
 
-DEFAULT_CORPUS = Path(__file__).resolve().parent.parent / "bench" / "corpus.txt"
+DEFAULT_CORPUS = Path(__file__).resolve().parents[2] / "bench" / "corpus.txt"
 DEFAULT_LIMIT = 60.0
 QUICK_LIMIT = 20.0
 QUICK_CASES = 2
@@ -357,7 +357,7 @@ def _warm_up():
 
 
 def main(argv=None) -> int:
-    ap = argparse.ArgumentParser(prog="python -m sheetfuncs.bench", description=__doc__.split("\n")[0])
+    ap = argparse.ArgumentParser(prog="python -m sheetfuncs.benchmarks.engine", description=__doc__.split("\n")[0])
     ap.add_argument("--quick", action="store_true",
                     help=f"only the first {QUICK_CASES} cases, reference limit {QUICK_LIMIT:g} s")
     ap.add_argument("--limit", type=float, default=None, metavar="SECONDS",

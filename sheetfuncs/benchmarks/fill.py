@@ -2,9 +2,9 @@
 five 1,000-row sampled columns, filled cold (empty result cache) and again
 with unchanged inputs (warm, from the persistent cache).
 
-    python -m sheetfuncs.fillbench [--rows 1000] [--cells 200]
-    python -m sheetfuncs.fillbench --faults [--rows 1000000]   # zip bomb, locked cache, N SF rows
-    python -m sheetfuncs.fillbench --natives FILLED.xlsx ...    # native-formula engines compared
+    python -m sheetfuncs.benchmarks.fill [--rows 1000] [--cells 200]
+    python -m sheetfuncs.benchmarks.fill --faults [--rows 1000000]   # zip bomb, locked cache, N SF rows
+    python -m sheetfuncs.benchmarks.fill --natives FILLED.xlsx ...    # native-formula engines compared
 
 Targets: cold under 5 s, warm under 1 s.  Figures go in docs/benchmarks.md.
 """
@@ -141,7 +141,7 @@ def measure(book: Path, out: Path, cache: str = "nocache", env=None, limit_mb=No
     import subprocess
     import sys
     e = dict(os.environ, **(env or {}))
-    e["PYTHONPATH"] = str(Path(__file__).resolve().parent.parent)
+    e["PYTHONPATH"] = str(Path(__file__).resolve().parents[2])
     pre = None
     if limit_mb:
         import resource
@@ -216,7 +216,7 @@ def _native_cells(path):
 
 
 def _ours_natives(path):
-    from .workbook import plan, refs
+    from ..workbook import plan, refs
     t0 = time.perf_counter()
     book = refs.open_book(path)
     run = plan._Run(book, plan._collect(book, "SF_"), {})
@@ -303,7 +303,7 @@ def natives(paths) -> int:
 
 
 def main(argv=None) -> int:
-    ap = argparse.ArgumentParser(prog="python -m sheetfuncs.fillbench")
+    ap = argparse.ArgumentParser(prog="python -m sheetfuncs.benchmarks.fill")
     ap.add_argument("--cells", type=int, default=200)
     ap.add_argument("--rows", type=int, default=1000)
     ap.add_argument("--faults", action="store_true",
@@ -318,8 +318,8 @@ def main(argv=None) -> int:
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
         os.environ["SHEETFUNCS_CACHE_DIR"] = str(tmp / "cache")   # empty persistent cache
-        from .fill import fill_workbook
-        from .engine.cache import ResultStore
+        from ..fill import fill_workbook
+        from ..engine.cache import ResultStore
         book = build(tmp / "bench.xlsx", args.cells, args.rows)
         store = ResultStore(tmp / "cache" / "results.sqlite3")
         t0 = time.perf_counter()
