@@ -23,10 +23,11 @@ import math
 import re
 from typing import Callable
 
-import numpy as np
-
 from . import api, units
+from ._lazy import LazyModule
 from ._lazy import sympy as sp
+
+np = LazyModule("numpy")          # imported when a response is sampled (a warm refill needs none)
 from .engine import cache
 from .engine.parse import CONSTANTS, TIME_FUNCTIONS
 from . import report
