@@ -174,10 +174,16 @@ def main(argv=None) -> int:
         if debug:
             raise
         return _fail(f"internal error ({type(exc).__name__}: {exc}); please report it", want_json)
-    if want_json:
-        print(json.dumps(out, allow_nan=False))
-    else:
-        print(out)
+    try:
+        if want_json:
+            print(json.dumps(out, allow_nan=False))
+        else:
+            print(out)
+        sys.stdout.flush()
+    except BrokenPipeError:         # the reader went away (| head): no traceback
+        import os
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 1
     return 0
 
 

@@ -191,7 +191,7 @@ def _s_text(F) -> str:
     """F(s) as human text: ^ for powers (the JSON keeps SymPy syntax)."""
     from .printing import to_display
     try:
-        return to_display(F, digits=17).replace("**", "^")
+        return to_display(F, digits=12).replace("**", "^")
     except Exception:            # noqa: BLE001 - an exotic node: SymPy's own text
         return sp.sstr(F).replace("**", "^")
 
@@ -270,9 +270,16 @@ def mode_table(f, digits=6) -> str:
 
 
 def figures(f, digits=6) -> str:
-    out = ["modes of F(s), slowest first (a complex pair is one mode: sigma \u00b1 j omega_d; "
-           "omega_n natural frequency, tau time constant)",
-           mode_table(f, digits)]
+    if f.poles:
+        out = ["modes of F(s), slowest first (a complex pair is one mode: sigma \u00b1 j omega_d; "
+               "omega_n natural frequency, tau time constant)",
+               mode_table(f, digits)]
+    elif "dead time" in f.stability or any("dead-time" in n for n in f.notes):
+        out = ["modes of F(s): not listed (a loop around a dead time has infinitely many poles; "
+               "stability from the characteristic equation)"]
+    else:
+        out = ["modes of F(s): none (no poles)" if f.stable is not None else
+               "modes of F(s): not listed (F(s) is not rational)"]
     zs = zero_modes(f.zeros)
     if zs:
         out.append("zeros: " + ", ".join(
