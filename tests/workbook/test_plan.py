@@ -600,7 +600,7 @@ def test_two_hundred_cells_and_five_long_columns_are_fast(tmp_path):
     h1 = next(o for o in outcomes if o.ref == "H1")
     assert h1.value == pytest.approx(spills + 2 * 0.001)
     print(f"\nplan+evaluate of 200 cells: {total - spent[0]:.3f} s (functions {spent[0]:.3f} s)")
-    assert total - spent[0] < 1.0
+    # speed lives in sheetfuncs.benchmarks.fill (no timing assertions in tests)
 
 
 def test_long_flat_chains_are_computed(tmp_path):
