@@ -187,9 +187,19 @@ def main(argv=None) -> int:
     return 0
 
 
+def _need_fill_libraries() -> None:
+    """fill and demo need the [fill] extra (openpyxl, lxml); say so in one line."""
+    import importlib.util
+    missing = [m for m in ("openpyxl", "lxml") if importlib.util.find_spec(m) is None]
+    if missing:
+        raise _UsageError(f"this command needs {' and '.join(missing)}: install them with "
+                          "python3 -m pip install 'sheetfuncs[fill]'")
+
+
 def _fill(args):
     """Exit status: 0 every cell of ours filled; 1 output written but some cells hold
     errors (or some books of several failed); 2 nothing written."""
+    _need_fill_libraries()
     from .fill import ERRORS_IN_FULL, fill_many
     if args.in_place and args.output:
         raise _UsageError("give either --in-place or -o, not both")
@@ -260,6 +270,7 @@ def _run(args):
         text = lo.install(args.profile) if args.action == "install" else lo.remove(args.profile)
         return {"result": text} if args.json else text
     if args.command == "demo":
+        _need_fill_libraries()
         from .demo import run_demo
         result = run_demo(args.dir)
         return result.to_dict() if args.json else result.text()
