@@ -35,8 +35,9 @@ class DemoResult:
                 shown = f"{value:.6g}" if isinstance(value, (int, float)) else str(value)
                 lines.append(f"    {label.ljust(width)} : {shown} {unit}".rstrip())
             lines.append("")
-        lines.append("Open them in Excel or LibreOffice Calc; edit the inputs, then run "
-                     "'sheetfuncs fill BOOK.xlsx --in-place' (or use the Excel add-in) to recompute.")
+        lines.append("Open them in LibreOffice Calc or Excel. To recompute live as you edit, run "
+                     "'sheetfuncs libreoffice install' once (or set up the Excel add-in: docs/excel.md); "
+                     "otherwise edit the inputs and run 'sheetfuncs fill BOOK.xlsx --in-place'.")
         lines.append(CAUTION)
         return "\n".join(lines)
 
