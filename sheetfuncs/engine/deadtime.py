@@ -16,7 +16,6 @@ the characteristic quasi-polynomial ``D(jω)`` (retarded type).
 from __future__ import annotations
 
 import math
-from fractions import Fraction
 
 from . import limits
 from . import qpoly as qp

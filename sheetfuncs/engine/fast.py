@@ -14,8 +14,6 @@ A :class:`FastResult` has the same public face as ``results.InversionResult``
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from fractions import Fraction
-from math import factorial
 from typing import Mapping
 
 from . import limits

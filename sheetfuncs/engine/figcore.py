@@ -6,7 +6,6 @@ dense grid (``GRID`` points over [0, horizon]), not read off coarse samples.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -14,6 +13,17 @@ import numpy as np
 from .roots import brent, golden_max
 
 GRID = 40_000
+
+
+def check_bands(settle: float, rise: tuple) -> tuple[float, float]:
+    """The settling band and rise levels checked (one place for both routes); (low, high)."""
+    from ..errors import UnsupportedExpressionError
+    if not 0 < settle < 1:
+        raise UnsupportedExpressionError(f"settling band {settle} must be between 0 and 1 (e.g. 0.02)")
+    lo, hi = rise
+    if not 0 <= lo < hi <= 1:
+        raise UnsupportedExpressionError(f"rise band {rise} must satisfy 0 <= low < high <= 1")
+    return lo, hi
 
 
 @dataclass(frozen=True)

@@ -8,18 +8,17 @@ coarse samples.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
 from typing import Mapping
 
 import numpy as np
 import sympy as sp
 
 from .._types import S, T
-from ..errors import ParameterError, UnsupportedExpressionError
+from ..errors import ParameterError
 from . import limits
 from .invert import invert_expr, time_function, to_s_expr
 from .results import finite_or_none, pair
-from .figcore import (GRID, Figures, PoleInfo, _no_step, _stability, pole_info,  # noqa: F401
+from .figcore import (GRID, Figures, PoleInfo, _no_step, _stability, check_bands, pole_info,  # noqa: F401
                       time_figures)
 from .sample import input_transform, numpy_function
 from .split import split_delays
@@ -42,11 +41,7 @@ def _poles(result) -> list[tuple[complex, int]]:
 def figures(expr, params: Mapping | None = None, *, input="step", settle: float = 0.02,
             rise: tuple = (0.1, 0.9), timeout: float | None = None) -> Figures:
     """Figures of the response of ``expr`` to ``input`` (impulse, step, ramp or U(s))."""
-    if not 0 < settle < 1:
-        raise UnsupportedExpressionError(f"settling band {settle} must be between 0 and 1 (e.g. 0.02)")
-    lo, hi = rise
-    if not 0 <= lo < hi <= 1:
-        raise UnsupportedExpressionError(f"rise band {rise} must satisfy 0 <= low < high <= 1")
+    lo, hi = check_bands(settle, rise)
     F = to_s_expr(expr, params)
     U = input_transform(input, params)
     label = input if isinstance(input, str) and input in ("impulse", "step", "ramp") else "given"

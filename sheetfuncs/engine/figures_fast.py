@@ -9,7 +9,6 @@ core does not cover.
 from __future__ import annotations
 
 import math
-from fractions import Fraction
 from typing import Mapping
 
 import numpy as np
@@ -18,11 +17,10 @@ from . import limits
 from . import qpoly as qp
 from .qpoly import Q
 from .fast import invert_quasi, quasi_of
-from .figcore import Figures, _no_step, _stability, pole_info, time_figures
+from .figcore import Figures, _no_step, _stability, check_bands, pole_info, time_figures
 from .numbers import to_float
 from .quasi import Quasi
 from .sample import input_name, input_quasi
-from ..errors import UnsupportedExpressionError
 
 DEADTIME_POINTS = 1500
 MAX_HORIZON_DOUBLINGS = 30
@@ -31,11 +29,7 @@ MAX_HORIZON_DOUBLINGS = 30
 def figures(expr, params: Mapping | None = None, *, input="step", settle: float = 0.02,
             rise: tuple = (0.1, 0.9), timeout: float | None = None) -> Figures:
     """Figures of the response of ``expr`` to ``input`` (impulse, step, ramp or U(s))."""
-    if not 0 < settle < 1:
-        raise UnsupportedExpressionError(f"settling band {settle} must be between 0 and 1 (e.g. 0.02)")
-    lo, hi = rise
-    if not 0 <= lo < hi <= 1:
-        raise UnsupportedExpressionError(f"rise band {rise} must satisfy 0 <= low < high <= 1")
+    lo, hi = check_bands(settle, rise)
     with limits.deadline(timeout):
         qF = quasi_of(expr, params)
         qU = input_quasi(input, params) if qF is not None else None

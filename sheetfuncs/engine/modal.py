@@ -19,7 +19,6 @@ at that precision.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from fractions import Fraction
 from math import comb
 
 from . import limits

@@ -22,14 +22,16 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from fractions import Fraction
-from math import comb, factorial
+
+from math import comb
 
 import mpmath
-import numpy as np
 import sympy as sp
 
 from .._types import S
 from ..errors import ParameterError, UnsupportedExpressionError
+from .modal import _deflate, polish_roots  # noqa: F401 - one place for the numeric helpers
+from .modal import laurent as _laurent
 
 #: working precision (decimal digits) for numeric roots and residues
 NUMERIC_DPS = 40
@@ -363,29 +365,6 @@ def _require_numeric(f):
             f"give values for {', '.join(syms)}", syms[0])
 
 
-def polish_roots(coeffs_mp, dps=NUMERIC_DPS):
-    """Roots of the polynomial with mpmath coefficients (highest first):
-    numpy's companion-matrix roots polished by Newton steps at ``dps``."""
-    with mpmath.workdps(dps):
-        approx = np.roots([complex(c) for c in coeffs_mp])
-        roots = []
-        for z in approx:
-            z = mpmath.mpc(z)
-            for _ in range(60):
-                p, dp = mpmath.mpf(0), mpmath.mpf(0)
-                for c in coeffs_mp:
-                    dp = dp * z + p
-                    p = p * z + c
-                if dp == 0:
-                    break
-                step = p / dp
-                z -= step
-                if abs(step) <= abs(z) * mpmath.mpf(10) ** (-dps + 5):
-                    break
-            roots.append(z)
-    return roots
-
-
 def _numeric_terms(f, groups):
     coeffs = [mpmath.mpf(sp.Rational(f.domain.to_sympy(c)).p) / sp.Rational(f.domain.to_sympy(c)).q
               for c in f.all_coeffs()]
@@ -413,46 +392,6 @@ def _numeric_terms(f, groups):
                         pair = PolePair(sp.Float(z.real, 17), sp.Float(z.imag, 17), -1)
                         out.append(PairTerm(pair, k - j, sp.Float(c.real, 17), sp.Float(c.imag, 17)))
     return out
-
-
-def _deflate(coeffs, z):
-    out = [coeffs[0]]
-    for c in coeffs[1:-1]:
-        out.append(out[-1] * z + c)
-    return out
-
-
-def _taylor(coeffs, z, n):
-    """First n Taylor coefficients (ascending) of the polynomial at z."""
-    work = list(coeffs)
-    out = []
-    for _ in range(n):
-        if not work:
-            out.append(mpmath.mpc(0))
-            continue
-        val = mpmath.mpc(0)
-        nxt = []
-        for c in work:
-            val = val * z + c
-            nxt.append(val)
-        out.append(nxt[-1])
-        work = nxt[:-1]
-    return out
-
-
-def _laurent(num, g, z, k):
-    """Coefficients of h^0..h^(k-1) of num(s)/g(s)^k at s = z + h."""
-    a = _taylor(num, z, k)
-    gt = _taylor(g, z, k)
-    # power series of g^k
-    gk = [mpmath.mpc(1)] + [mpmath.mpc(0)] * (k - 1)
-    for _ in range(k):
-        gk = [sum(gk[i] * gt[n - i] for i in range(n + 1)) for n in range(k)]
-    # a / gk as a series
-    q = []
-    for n in range(k):
-        q.append((a[n] - sum(q[i] * gk[n - i] for i in range(n))) / gk[0])
-    return q
 
 
 def _numeric_real_terms(exact_groups, pair_terms):
