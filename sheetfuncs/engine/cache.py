@@ -16,6 +16,7 @@ import functools
 import hashlib
 import json
 import os
+import random
 import threading
 import time
 from collections import OrderedDict
@@ -149,7 +150,9 @@ class ResultStore:
                                    check_same_thread=False)
             try:
                 conn.execute("PRAGMA busy_timeout=0")
-                conn.execute("PRAGMA journal_mode=WAL")
+                mode = conn.execute("PRAGMA journal_mode").fetchone()
+                if not mode or str(mode[0]).lower() != "wal":     # switching needs the write lock:
+                    conn.execute("PRAGMA journal_mode=WAL")       # only when not already WAL
                 conn.execute("PRAGMA synchronous=NORMAL")
                 conn.execute("CREATE TABLE IF NOT EXISTS results "
                              "(key TEXT PRIMARY KEY, value TEXT NOT NULL)")
@@ -233,7 +236,8 @@ class ResultStore:
                     if left <= 0:
                         self._disable("locked by another process")
                         return default
-                    step = min(pause, left)
+                    # jitter: two stores retrying on one schedule would collide every time
+                    step = min(pause * random.uniform(0.5, 1.5), left)
                     time.sleep(step)
                     self.waited += step
                     pause = min(pause * 2, 0.1)
