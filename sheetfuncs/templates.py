@@ -654,30 +654,41 @@ def readme(infos: list[dict]) -> str:
     return "\n".join(lines)
 
 
-def build_all(outdir="workbooks") -> list[Path]:
-    """Write the four workbooks and README.md into outdir; returns the workbook paths."""
+def write_books(outdir, templates: dict, describe_all, readme_name: str) -> list[Path]:
+    """Build every template into outdir with its README (``describe_all(infos)`` gives the
+    text); returns the workbook paths.  Shared by the generators of the example books."""
     outdir = Path(outdir)
     paths, infos = [], []
-    for name, builder in TEMPLATES.items():
+    for name, builder in templates.items():
         wb, info = builder()
         paths.append(save_deterministic(wb, outdir / f"{name}.xlsx"))
         infos.append(info)
-    (outdir / "README.md").write_text(readme(infos), encoding="utf-8")
+    (outdir / readme_name).write_text(describe_all(infos), encoding="utf-8")
     return paths
 
 
-def main(argv=None) -> int:
+def generator_main(argv, prog: str, build) -> int:
+    """Command line of a book generator: ``python -m PROG [OUTDIR]``."""
     args = sys.argv[1:] if argv is None else list(argv)
     if len(args) > 1 or (args and args[0].startswith("-")):
-        print("usage: python -m sheetfuncs.templates [OUTDIR]", file=sys.stderr)
+        print(f"usage: python -m {prog} [OUTDIR]", file=sys.stderr)
         return 2
     try:
-        for p in build_all(args[0] if args else "workbooks"):
+        for p in build(args[0] if args else "workbooks"):
             print(p)
     except OSError as exc:
-        print(f"sheetfuncs.templates: cannot write: {exc}", file=sys.stderr)
+        print(f"{prog}: cannot write: {exc}", file=sys.stderr)
         return 1
     return 0
+
+
+def build_all(outdir="workbooks") -> list[Path]:
+    """Write the four workbooks and README.md into outdir; returns the workbook paths."""
+    return write_books(outdir, TEMPLATES, readme, "README.md")
+
+
+def main(argv=None) -> int:
+    return generator_main(argv, "sheetfuncs.templates", build_all)
 
 
 if __name__ == "__main__":

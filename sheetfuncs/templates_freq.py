@@ -19,7 +19,7 @@ from pathlib import Path
 from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.styles import Alignment, Font
 
-from .templates import CAUTION, SCI, _abs, _book, _Calc, _fit_page, save_deterministic
+from .templates import CAUTION, SCI, _abs, _book, _Calc, _fit_page, generator_main, write_books
 
 _BOLD = Font(bold=True)
 _TITLE = Font(bold=True, size=14)
@@ -274,28 +274,11 @@ def readme(infos: list[dict]) -> str:
 
 def build_all(outdir="workbooks") -> list[Path]:
     """Write the two workbooks and README_frequency.md into outdir; returns the workbook paths."""
-    outdir = Path(outdir)
-    paths, infos = [], []
-    for name, builder in TEMPLATES.items():
-        wb, info = builder()
-        paths.append(save_deterministic(wb, outdir / f"{name}.xlsx"))
-        infos.append(info)
-    (outdir / "README_frequency.md").write_text(readme(infos), encoding="utf-8")
-    return paths
+    return write_books(outdir, TEMPLATES, readme, "README_frequency.md")
 
 
 def main(argv=None) -> int:
-    args = sys.argv[1:] if argv is None else list(argv)
-    if len(args) > 1 or (args and args[0].startswith("-")):
-        print("usage: python -m sheetfuncs.templates_freq [OUTDIR]", file=sys.stderr)
-        return 2
-    try:
-        for p in build_all(args[0] if args else "workbooks"):
-            print(p)
-    except OSError as exc:
-        print(f"sheetfuncs.templates_freq: cannot write: {exc}", file=sys.stderr)
-        return 1
-    return 0
+    return generator_main(argv, "sheetfuncs.templates_freq", build_all)
 
 
 if __name__ == "__main__":

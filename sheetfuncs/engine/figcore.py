@@ -15,6 +15,28 @@ from .roots import brent, golden_max
 GRID = 40_000
 
 
+def _fmt(p: complex) -> str:
+    if abs(p.imag) < 1e-15:
+        return f"s = {p.real:.6g}"
+    return f"s = {p.real:.6g} \u00b1 {abs(p.imag):.6g}j"
+
+
+def no_final_value(poles) -> str | None:
+    """Why the final value theorem does not apply to a response with these poles of Y(s)
+    ((complex, multiplicity) pairs), or None when it does (all in the open left half-plane
+    but a simple pole at s = 0)."""
+    bad = [(p, m) for p, m in poles if not (p.real < -1e-12 * max(1.0, abs(p)))
+           and not (abs(p) <= 1e-14 and m == 1)]
+    if not bad:
+        return None
+    p, m = bad[0]
+    if p.real > 1e-12 * max(1.0, abs(p)):
+        return f"no final value: pole at {_fmt(p)} in the right half-plane (the response grows)"
+    if abs(p) <= 1e-14:
+        return "no final value: repeated pole at s = 0 (the response grows without bound)"
+    return f"no final value: poles at {_fmt(p)} on the imaginary axis (the response keeps oscillating)"
+
+
 def check_bands(settle: float, rise: tuple) -> tuple[float, float]:
     """The settling band and rise levels checked (one place for both routes); (low, high)."""
     from ..errors import UnsupportedExpressionError

@@ -18,7 +18,7 @@ from ..errors import ParameterError
 from . import limits
 from .invert import invert_expr, time_function, to_s_expr
 from .results import finite_or_none, pair
-from .figcore import (GRID, Figures, PoleInfo, _no_step, _stability, check_bands, pole_info,  # noqa: F401
+from .figcore import (GRID, Figures, PoleInfo, _no_step, _stability, check_bands, no_final_value, pole_info,  # noqa: F401
                       time_figures)
 from .sample import input_transform, numpy_function
 from .split import split_delays
@@ -107,16 +107,8 @@ def _initial_final(resp):
         initial += sum((t.coefficient for t in dec.terms if t.order == 1), sp.S.Zero)
     initial_v = None if initial is None else complex(sp.N(initial, 17)).real
     poles = _poles(resp)
-    bad = [(p, m) for p, m in poles if not (p.real < -1e-12 * max(1.0, abs(p)))
-           and not (abs(p) <= 1e-14 and m == 1)]
-    if bad:
-        p, m = bad[0]
-        if p.real > 1e-12 * max(1.0, abs(p)):
-            note = f"no final value: pole at {_fmt(p)} in the right half-plane (the response grows)"
-        elif abs(p) <= 1e-14:
-            note = "no final value: repeated pole at s = 0 (the response grows without bound)"
-        else:
-            note = f"no final value: poles at {_fmt(p)} on the imaginary axis (the response keeps oscillating)"
+    note = no_final_value(poles)
+    if note:
         return initial_v, None, note
     final = sp.S.Zero
     for piece in resp.pieces:
@@ -124,12 +116,6 @@ def _initial_final(resp):
             if t.order == 1 and t.pole == 0:
                 final += piece.gain * t.coefficient
     return initial_v, complex(sp.N(final, 17)).real, "final value theorem: all poles of sY(s) in the open left half-plane"
-
-
-def _fmt(p: complex) -> str:
-    if abs(p.imag) < 1e-15:
-        return f"s = {p.real:.6g}"
-    return f"s = {p.real:.6g} ± {abs(p.imag):.6g}j"
 
 
 def _response_functions(resp):

@@ -17,7 +17,7 @@ from . import limits
 from . import qpoly as qp
 from .qpoly import Q
 from .fast import invert_quasi, quasi_of
-from .figcore import Figures, _no_step, _stability, check_bands, pole_info, time_figures
+from .figcore import Figures, _no_step, _stability, check_bands, no_final_value, pole_info, time_figures
 from .numbers import to_float
 from .quasi import Quasi
 from .sample import input_name, input_quasi
@@ -108,12 +108,6 @@ def _initial_value(resY):
     return total
 
 
-def _fmt(p: complex) -> str:
-    if abs(p.imag) < 1e-15:
-        return f"s = {p.real:.6g}"
-    return f"s = {p.real:.6g} ± {abs(p.imag):.6g}j"
-
-
 def quasi_figures(qF: Quasi, qU: Quasi, label: str, settle: float, lo: float, hi: float) -> Figures:
     resF = invert_quasi(qF)
     qY = qF * qU
@@ -128,18 +122,8 @@ def quasi_figures(qF: Quasi, qU: Quasi, label: str, settle: float, lo: float, hi
     poles = _merge_poles(resF)
     stable, stability = _stability(poles)
     ypoles = _merge_poles(resY)
-    bad = [(p, m) for p, m in ypoles if not (p.real < -1e-12 * max(1.0, abs(p)))
-           and not (abs(p) <= 1e-14 and m == 1)]
-    final, note = None, ""
-    if bad:
-        p, m = bad[0]
-        if p.real > 1e-12 * max(1.0, abs(p)):
-            note = f"no final value: pole at {_fmt(p)} in the right half-plane (the response grows)"
-        elif abs(p) <= 1e-14:
-            note = "no final value: repeated pole at s = 0 (the response grows without bound)"
-        else:
-            note = f"no final value: poles at {_fmt(p)} on the imaginary axis (the response keeps oscillating)"
-    else:
+    final, note = None, no_final_value(ypoles) or ""
+    if not note:
         v = value_at_zero(qY * Quasi.s())
         final = None if v is None else float(v)
         note = "final value theorem: all poles of sY(s) in the open left half-plane"
